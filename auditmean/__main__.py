@@ -1,0 +1,5 @@
+import sys
+
+from auditmean.cli import main
+
+sys.exit(main())

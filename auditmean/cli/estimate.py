@@ -1,0 +1,182 @@
+"""``auditmean estimate``: every applicable estimator side by side, from two files.
+
+The sample file has one row per examined item (stratum, audited value and,
+for the book-value methods, book value); the strata file one row per
+population stratum (stratum, item count and, for the book-value methods,
+book total). Column names can be mapped with the ``--*-column`` options.
+"""
+
+from __future__ import annotations
+
+import argparse
+
+from auditmean._records import format_number, text_table
+from auditmean.cautions import cautions_text
+from auditmean.cli._common import add_json_flag, print_json, rename_columns
+from auditmean.core.estimators import BOOK_VALUE_METHODS, METHODS
+from auditmean.errors import MethodNotApplicable
+from auditmean.evaluation import METHOD_NAMES, estimate_total
+from auditmean.tables import read_table
+
+__all__ = ["register", "run"]
+
+
+def register(subparsers) -> argparse.ArgumentParser:
+    p = subparsers.add_parser(
+        "estimate",
+        help="project the audited total and misstatement from a sample file and a strata file",
+        description=(
+            "Estimate the population's audited total and the projected misstatement with every "
+            "applicable method (mean-per-unit, difference, separate and combined ratio, "
+            "regression), with confidence limits that use the finite-population correction."
+        ),
+    )
+    p.add_argument("sample", help="sample file (CSV, TSV, Excel or Parquet): one row per examined item")
+    p.add_argument("strata", help="strata file: one row per population stratum")
+    p.add_argument(
+        "--method",
+        action="append",
+        choices=METHODS,
+        help="only this method (repeat for several); default: every method the files allow",
+    )
+    p.add_argument("--confidence", type=float, default=0.95, help="confidence level (default 0.95)")
+    p.add_argument(
+        "--sides",
+        choices=("two-sided", "lower", "upper"),
+        default="two-sided",
+        help="two-sided limits, or a one-sided lower or upper bound on the audited total",
+    )
+    p.add_argument("--distribution", choices=("normal", "t"), default="normal", help="normal or Student t limits")
+    p.add_argument(
+        "--ratio-variance",
+        choices=("sample_book_mean", "population_book_mean"),
+        default="sample_book_mean",
+        help="variance form of the ratio estimators (default: sample book mean)",
+    )
+    p.add_argument(
+        "--single-item",
+        choices=("average", "zero", "error"),
+        default="average",
+        help="treatment of a stratum whose variance cannot be estimated (default: average)",
+    )
+    p.add_argument(
+        "--unsampled",
+        choices=("error", "book_value"),
+        default="error",
+        help="treatment of a stratum with no sampled item (default: error)",
+    )
+    cols = p.add_argument_group("column names (when the files use other names)")
+    cols.add_argument("--stratum-column", default="stratum", metavar="NAME")
+    cols.add_argument("--audited-column", default="audited_value", metavar="NAME")
+    cols.add_argument("--book-column", default="book_value", metavar="NAME")
+    cols.add_argument("--item-column", default=None, metavar="NAME", help="item id column of the sample (checked for duplicates)")
+    cols.add_argument("--count-column", default="count", metavar="NAME")
+    cols.add_argument("--book-total-column", default="book_total", metavar="NAME")
+    cols.add_argument("--sheet", default=None, help="sheet name for Excel files (default: the first)")
+    add_json_flag(p)
+    p.set_defaults(run=run)
+    return p
+
+
+def _load(args):
+    sample = read_table(args.sample, sheet=args.sheet)
+    sample = rename_columns(
+        sample,
+        {
+            "stratum": args.stratum_column,
+            "audited_value": args.audited_column,
+            "book_value": args.book_column if args.book_column in sample.columns or args.book_column != "book_value" else None,
+            "item_id": args.item_column,
+        },
+        args.sample,
+    )
+    strata = read_table(args.strata, sheet=args.sheet)
+    strata = rename_columns(
+        strata,
+        {
+            "stratum": args.stratum_column,
+            "count": args.count_column,
+            "book_total": args.book_total_column
+            if args.book_total_column in strata.columns or args.book_total_column != "book_total"
+            else None,
+        },
+        args.strata,
+    )
+    return sample, strata
+
+
+def run(args) -> int:
+    sample, strata = _load(args)
+    has_book = "book_value" in sample.columns and "book_total" in strata.columns
+    methods = args.method or [m for m in METHODS if has_book or m not in BOOK_VALUE_METHODS]
+    results, skipped = [], []
+    for m in methods:
+        try:
+            results.append(
+                estimate_total(
+                    sample,
+                    strata,
+                    method=m,
+                    confidence=args.confidence,
+                    sides=args.sides,
+                    distribution=args.distribution,
+                    ratio_variance=args.ratio_variance,
+                    single_item=args.single_item,
+                    unsampled=args.unsampled,
+                    sample_file=args.sample,
+                    strata_file=args.strata,
+                )
+            )
+        except MethodNotApplicable as exc:
+            if args.method:  # asked for by name: the user must hear why it failed
+                raise
+            skipped.append((m, exc.reason))
+    if args.json:
+        print_json(
+            {
+                "estimates": [r.to_dict() for r in results],
+                "not_applicable": [{"method": m, "reason": why} for m, why in skipped],
+            }
+        )
+        return 0
+    print(side_by_side(results))
+    for m, why in skipped:
+        print(f"\n{METHOD_NAMES[m]}: not applicable: {why}")
+    for r in results:
+        if r.flags:
+            print(f"\nWarnings for {r.method_name}:")
+            for f in r.flags:
+                print(f"  [{f.code}] {f.message}")
+                print(f"      advice: {f.advice}")
+    if not has_book and not args.method:
+        print("\nOnly mean-per-unit applies: the files give no book values per item and book totals per stratum.")
+    print()
+    print(cautions_text())
+    return 0
+
+
+def side_by_side(results) -> str:
+    """One column per method, one row per quantity."""
+    if not results:
+        return "No estimate could be made."
+    first = results[0]
+    side = {"two-sided": "two-sided limits", "lower": "lower bound", "upper": "upper bound"}[first.sides]
+    head = (
+        f"Estimates at {first.confidence:.0%} confidence ({side}, {first.distribution}); "
+        f"{first.sample_size:,} of {first.population_count:,} items examined in "
+        f"{len(first.by_stratum)} strata; book total {format_number(first.book_total) or 'not given'}"
+    )
+    quantities = [
+        ("estimated audited total", "total"),
+        ("standard error", "std_error"),
+        ("lower limit", "lower"),
+        ("upper limit", "upper"),
+        ("achieved allowance", "allowance"),
+        ("projected misstatement", "misstatement"),
+        ("misstatement, lower limit", "misstatement_lower"),
+        ("misstatement, upper limit", "misstatement_upper"),
+    ]
+    rows = [[label] + [format_number(getattr(r, attr)) for r in results] for label, attr in quantities]
+    rows.append(["warnings"] + [str(len(r.flags)) for r in results])
+    header = [""] + [METHOD_NAMES[r.method] for r in results]
+    return head + "\n\n" + text_table(header, rows)
