@@ -19,7 +19,7 @@ from auditmean.errors import (
     ParameterError,
     RecordError,
 )
-from auditmean.evaluation import Estimate, estimate_total
+from auditmean.evaluation import Estimate, Evaluation, estimate_total, evaluate, second_opinion
 
 __all__ = [
     "__version__",
@@ -30,4 +30,7 @@ __all__ = [
     "RecordError",
     "Estimate",
     "estimate_total",
+    "Evaluation",
+    "evaluate",
+    "second_opinion",
 ]

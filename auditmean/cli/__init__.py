@@ -21,7 +21,7 @@ from auditmean import __version__
 from auditmean.errors import AuditMeanError
 
 # Order is the order of the job; each name is a module of this package.
-SUBCOMMANDS: tuple[str, ...] = ("estimate",)
+SUBCOMMANDS: tuple[str, ...] = ("estimate", "evaluate")
 
 
 def build_parser() -> argparse.ArgumentParser:

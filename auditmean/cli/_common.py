@@ -10,8 +10,9 @@ import pandas as pd
 
 from auditmean._records import json_safe
 from auditmean.errors import InputError
+from auditmean.tables import read_table
 
-__all__ = ["print_json", "rename_columns", "add_json_flag"]
+__all__ = ["print_json", "rename_columns", "add_json_flag", "add_table_options", "load_sample_and_strata"]
 
 
 def add_json_flag(parser) -> None:
@@ -34,3 +35,47 @@ def rename_columns(df: pd.DataFrame, mapping: dict[str, str | None], file: str) 
             raise InputError(f"no column {theirs!r} (given for {ours}); the file has {have}", file=file, column=theirs)
         renames[theirs] = ours
     return df.rename(columns=renames)
+
+
+def add_table_options(p) -> None:
+    """The sample and strata files and the options that map their column names."""
+    p.add_argument("sample", help="sample file (CSV, TSV, Excel or Parquet): one row per examined item")
+    p.add_argument("strata", help="strata file: one row per population stratum")
+    cols = p.add_argument_group("column names (when the files use other names)")
+    cols.add_argument("--stratum-column", default="stratum", metavar="NAME")
+    cols.add_argument("--audited-column", default="audited_value", metavar="NAME")
+    cols.add_argument("--book-column", default="book_value", metavar="NAME")
+    cols.add_argument("--item-column", default=None, metavar="NAME", help="item id column of the sample (checked for duplicates)")
+    cols.add_argument("--count-column", default="count", metavar="NAME")
+    cols.add_argument("--book-total-column", default="book_total", metavar="NAME")
+    cols.add_argument("--sheet", default=None, help="sheet name for Excel files (default: the first)")
+
+
+def load_sample_and_strata(args):
+    """Read both files and rename their columns to auditmean's names."""
+    sample = read_table(args.sample, sheet=args.sheet)
+    sample = rename_columns(
+        sample,
+        {
+            "stratum": args.stratum_column,
+            "audited_value": args.audited_column,
+            "book_value": args.book_column if args.book_column in sample.columns or args.book_column != "book_value" else None,
+            "item_id": args.item_column,
+        },
+        args.sample,
+    )
+    strata = read_table(args.strata, sheet=args.sheet)
+    strata = rename_columns(
+        strata,
+        {
+            "stratum": args.stratum_column,
+            "count": args.count_column,
+            "book_total": args.book_total_column
+            if args.book_total_column in strata.columns or args.book_total_column != "book_total"
+            else None,
+        },
+        args.strata,
+    )
+    return sample, strata
+
+

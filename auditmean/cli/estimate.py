@@ -12,11 +12,15 @@ import argparse
 
 from auditmean._records import format_number, text_table
 from auditmean.cautions import cautions_text
-from auditmean.cli._common import add_json_flag, print_json, rename_columns
+from auditmean.cli._common import (
+    add_json_flag,
+    add_table_options,
+    load_sample_and_strata,
+    print_json,
+)
 from auditmean.core.estimators import BOOK_VALUE_METHODS, METHODS
 from auditmean.errors import MethodNotApplicable
 from auditmean.evaluation import METHOD_NAMES, estimate_total
-from auditmean.tables import read_table
 
 __all__ = ["register", "run"]
 
@@ -31,8 +35,6 @@ def register(subparsers) -> argparse.ArgumentParser:
             "regression), with confidence limits that use the finite-population correction."
         ),
     )
-    p.add_argument("sample", help="sample file (CSV, TSV, Excel or Parquet): one row per examined item")
-    p.add_argument("strata", help="strata file: one row per population stratum")
     p.add_argument(
         "--method",
         action="append",
@@ -65,48 +67,14 @@ def register(subparsers) -> argparse.ArgumentParser:
         default="error",
         help="treatment of a stratum with no sampled item (default: error)",
     )
-    cols = p.add_argument_group("column names (when the files use other names)")
-    cols.add_argument("--stratum-column", default="stratum", metavar="NAME")
-    cols.add_argument("--audited-column", default="audited_value", metavar="NAME")
-    cols.add_argument("--book-column", default="book_value", metavar="NAME")
-    cols.add_argument("--item-column", default=None, metavar="NAME", help="item id column of the sample (checked for duplicates)")
-    cols.add_argument("--count-column", default="count", metavar="NAME")
-    cols.add_argument("--book-total-column", default="book_total", metavar="NAME")
-    cols.add_argument("--sheet", default=None, help="sheet name for Excel files (default: the first)")
+    add_table_options(p)
     add_json_flag(p)
     p.set_defaults(run=run)
     return p
 
 
-def _load(args):
-    sample = read_table(args.sample, sheet=args.sheet)
-    sample = rename_columns(
-        sample,
-        {
-            "stratum": args.stratum_column,
-            "audited_value": args.audited_column,
-            "book_value": args.book_column if args.book_column in sample.columns or args.book_column != "book_value" else None,
-            "item_id": args.item_column,
-        },
-        args.sample,
-    )
-    strata = read_table(args.strata, sheet=args.sheet)
-    strata = rename_columns(
-        strata,
-        {
-            "stratum": args.stratum_column,
-            "count": args.count_column,
-            "book_total": args.book_total_column
-            if args.book_total_column in strata.columns or args.book_total_column != "book_total"
-            else None,
-        },
-        args.strata,
-    )
-    return sample, strata
-
-
 def run(args) -> int:
-    sample, strata = _load(args)
+    sample, strata = load_sample_and_strata(args)
     has_book = "book_value" in sample.columns and "book_total" in strata.columns
     methods = args.method or [m for m in METHODS if has_book or m not in BOOK_VALUE_METHODS]
     results, skipped = [], []

@@ -1,5 +1,16 @@
-"""Evaluation: from a recorded sample to estimates, limits, flags and a conclusion."""
+"""Evaluation: from a recorded sample to estimates, limits, flags, second opinions and a conclusion."""
 
+from auditmean.evaluation.conclusion import Evaluation, MethodConclusion, evaluate
 from auditmean.evaluation.estimate import METHOD_NAMES, Estimate, estimate_total
+from auditmean.evaluation.second_opinion import SecondOpinion, second_opinion
 
-__all__ = ["Estimate", "estimate_total", "METHOD_NAMES"]
+__all__ = [
+    "Estimate",
+    "estimate_total",
+    "METHOD_NAMES",
+    "Evaluation",
+    "MethodConclusion",
+    "evaluate",
+    "SecondOpinion",
+    "second_opinion",
+]

@@ -29,7 +29,7 @@ from auditmean.core import estimators as est
 from auditmean.core.flags import Flag
 from auditmean.core.intervals import DISTRIBUTIONS, SIDES, confidence_limits, critical_value
 from auditmean.errors import InputError, MethodNotApplicable, ParameterError, spreadsheet_row
-from auditmean.evaluation.flags import structural_flags
+from auditmean.evaluation.flags import normality_flags, structural_flags
 
 __all__ = ["Estimate", "estimate_total", "METHOD_NAMES"]
 
@@ -73,6 +73,10 @@ class Estimate(RecordMixin):
     flags:
         Warnings (:class:`~auditmean.core.flags.Flag`); numbers are never
         changed by them.
+    skewness:
+        Skewness of the whole stratified estimator, from the strata's third
+        moments (NaN where no stratum is sampled with a variance); above
+        0.2 in size its normal-theory limits are flagged.
     """
 
     record_kind = "estimate"
@@ -99,6 +103,7 @@ class Estimate(RecordMixin):
     unsampled: str
     by_stratum: pd.DataFrame = field(repr=False)
     flags: tuple[Flag, ...] = ()
+    skewness: float = math.nan
 
     @property
     def method_name(self) -> str:
@@ -306,6 +311,17 @@ def _check_applicable(method, design: _Design, single_item, unsampled):
                 )
 
 
+def prepare_design(sample, strata, method, single_item="average", unsampled="error", sample_file=None, strata_file=None) -> _Design:
+    """Validate the two tables for ``method`` and return the arrays the core needs.
+
+    Used by every evaluation function, so all of them refuse the same bad
+    input with the same messages.
+    """
+    design = _prepare(sample, strata, method, unsampled, sample_file, strata_file)
+    _check_applicable(method, design, single_item, unsampled)
+    return design
+
+
 def estimate_total(
     sample: pd.DataFrame,
     strata: pd.DataFrame,
@@ -375,8 +391,7 @@ def estimate_total(
     (120.0, 9.660918)
     """
     conf = _validate_parameters(method, confidence, sides, distribution, ratio_variance, single_item, unsampled)
-    design = _prepare(sample, strata, method, unsampled, sample_file, strata_file)
-    _check_applicable(method, design, single_item, unsampled)
+    design = prepare_design(sample, strata, method, single_item, unsampled, sample_file, strata_file)
 
     core = est.estimate_strata(
         method,
@@ -395,6 +410,9 @@ def estimate_total(
     book_total = float(design.book_totals.sum()) if design.book_totals is not None else math.nan
     by_stratum = _by_stratum(method, design, core, single_item, unsampled)
     flags = structural_flags(method, design.labels, by_stratum, core, single_item, unsampled)
+    skew_flags, g1, skewness = normality_flags(method, design.labels, by_stratum, core, design.codes)
+    flags = flags + skew_flags
+    by_stratum["skewness"] = g1
     return Estimate(
         method=method,
         confidence=conf,
@@ -418,6 +436,7 @@ def estimate_total(
         unsampled=unsampled,
         by_stratum=by_stratum,
         flags=flags,
+        skewness=skewness,
     )
 
 

@@ -128,3 +128,186 @@ def structural_flags(
             )
         )
     return tuple(flags)
+
+
+# ------------------------------------------------------------------ normal approximation
+
+_RULE_OF_THUMB_SOURCE = "rule of thumb, common practice; no published source"
+_COCHRAN_SOURCE = "Cochran 1977, Sampling Techniques, 3rd ed., section 2.15"
+_SUGDEN_SOURCE = (
+    "Sugden, Smith and Jones 2000, Cochran's rule for simple random sampling, JRSS B 62, 787-793 "
+    "(the constant 28 is quoted from memory)"
+)
+_OVERALL_SOURCE = (
+    "derived from Cochran 1977, section 2.15: n > 25 G1^2 is the same as a skewness of the mean "
+    "below 0.2; applied here to the stratified estimator, whose skewness comes from the strata's "
+    "third moments (third moment of a mean without replacement: mu3 (N - n)(N - 2n) / "
+    "(n^2 (N - 1)(N - 2)), Cochran 1977, section 2.15, quoted from memory)"
+)
+#: Skewness of an estimator above which its normal interval is doubtful
+#: (Cochran's n > 25 G1^2 rewritten as G1 / sqrt(n) < 0.2).
+OVERALL_SKEWNESS_LIMIT = 0.2
+#: Fewest non-zero differences for difference and ratio intervals: common
+#: audit practice, quoted from memory, no single published source.
+FEW_DIFFERENCES = 20
+
+_WHAT_IS_AVERAGED = {
+    "mpu": "audited values",
+    "difference": "differences (audited minus book)",
+    "ratio": "ratio residuals",
+    "combined_ratio": "ratio residuals",
+    "regression": "regression residuals",
+}
+
+
+def averaged_moments(codes: np.ndarray, H: int, values: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Per stratum: G1, sample variance (n - 1) and k3 of the values an estimator averages."""
+    from auditmean.core.moments import group_counts, group_means, sample_skewness
+
+    n = group_counts(codes, H)
+    mean = group_means(codes, H, values, n)
+    d = values - mean[codes]
+    m2 = np.bincount(codes, weights=d * d, minlength=H)
+    m3 = np.bincount(codes, weights=d * d * d, minlength=H)
+    nf = n.astype(float)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        s2 = np.where(n > 1, m2 / (nf - 1.0), np.nan)
+        k3 = np.where(n > 2, nf * m3 / ((nf - 1.0) * (nf - 2.0)), np.nan)
+    g1 = sample_skewness(codes, H, values)
+    # Values that do not vary have no shape to judge: the skewness rules do
+    # not apply (the no-differences flag speaks for that case).
+    scale = np.bincount(codes, weights=values * values, minlength=H)
+    flat = ~(m2 > 1e-24 * scale)
+    return np.where(flat, np.nan, g1), s2, k3
+
+
+def estimator_skewness(core: est.CoreEstimate, counts: np.ndarray, n: np.ndarray, k3: np.ndarray, adjustment: np.ndarray) -> float:
+    """Skewness of the stratified estimator from the strata's third moments (see ``_OVERALL_SOURCE``)."""
+    N = counts.astype(float)
+    nf = n.astype(float)
+    use = core.status == est.STATUS_SAMPLED
+    if not use.any() or not (core.variance > 0):
+        return float("nan")
+    with np.errstate(invalid="ignore", divide="ignore"):
+        third = N**3 * k3 * (N - nf) * (N - 2 * nf) / (nf**2 * (N - 1) * (N - 2)) * adjustment**1.5
+    third = np.where(use & np.isfinite(third), third, 0.0)
+    return float(third.sum() / core.variance**1.5)
+
+
+def normality_flags(
+    method: str,
+    labels: list[str],
+    by_stratum: pd.DataFrame,
+    core: est.CoreEstimate,
+    codes: np.ndarray,
+) -> tuple[tuple[Flag, ...], np.ndarray, float]:
+    """Flags on whether the normal approximation can be trusted, stratum by stratum and overall.
+
+    Returns the flags, the per-stratum skewness G1 of what the estimator
+    averages, and the skewness of the whole estimator.
+    """
+    from auditmean.core import normality
+
+    H = len(labels)
+    n = by_stratum["sampled"].to_numpy()
+    counts = by_stratum["count"].to_numpy()
+    g1, _s2, k3 = averaged_moments(codes, H, core.item_values)
+    sampled = core.status == est.STATUS_SAMPLED
+    census = ~sampled
+    what = _WHAT_IS_AVERAGED[method]
+    flags: list[Flag] = []
+    few = normality.fails_rule_of_thumb(n, census)
+    cochran = normality.fails_cochran(n, g1, census)
+    sugden = normality.fails_sugden(n, g1, census)
+    for h in range(H):
+        name = labels[h]
+        if few[h]:
+            flags.append(
+                Flag(
+                    code="few-items",
+                    message=f"Stratum {name!r}: {n[h]} items sampled, fewer than {normality.RULE_OF_THUMB_ITEMS}.",
+                    stratum=name,
+                    rule=f"at least {normality.RULE_OF_THUMB_ITEMS} sampled items per stratum",
+                    source=_RULE_OF_THUMB_SOURCE,
+                    advice="Extend the selection in this stratum, or merge it with a neighbour.",
+                )
+            )
+        if cochran[h]:
+            need = int(normality.smallest_size_above(normality.cochran_minimum(g1[h])))
+            flags.append(
+                Flag(
+                    code="skew-cochran",
+                    message=(
+                        f"Stratum {name!r}: the {what} have skewness {g1[h]:.2f}; Cochran's rule asks for "
+                        f"more than {25 * g1[h] ** 2:.0f} items, the sample has {n[h]}."
+                    ),
+                    stratum=name,
+                    rule="n > 25 G1^2, G1 the skewness of what the estimator averages",
+                    source=_COCHRAN_SOURCE,
+                    advice=(
+                        f"Examine at least {need} items here, split the stratum, or move its largest "
+                        f"items into the stratum examined in full; meanwhile rely on the second opinion."
+                    ),
+                )
+            )
+        if sugden[h]:
+            need = int(normality.smallest_size_above(normality.sugden_minimum(g1[h])))
+            flags.append(
+                Flag(
+                    code="skew-studentized",
+                    message=(
+                        f"Stratum {name!r}: with skewness {g1[h]:.2f} the studentized mean needs more than "
+                        f"{28 + 25 * g1[h] ** 2:.0f} items; the sample has {n[h]}."
+                    ),
+                    stratum=name,
+                    rule="n > 28 + 25 G1^2",
+                    source=_SUGDEN_SOURCE,
+                    advice=f"Examine at least {need} items here, or restratify; meanwhile rely on the second opinion.",
+                )
+            )
+    adjustment = np.ones(H)
+    if method in ("ratio", "combined_ratio"):
+        # the same scale factor the sample-book-mean variance uses, if any
+        with np.errstate(invalid="ignore", divide="ignore"):
+            base = by_stratum["count"].to_numpy(float) ** 2 * (1 - n / np.maximum(counts, 1)) / np.maximum(n, 1)
+            adjustment = np.where(
+                sampled & (base * core.residual_var > 0), core.stratum_variance / (base * core.residual_var), 1.0
+            )
+    skew = estimator_skewness(core, counts, n, k3, adjustment)
+    if np.isfinite(skew) and abs(skew) >= OVERALL_SKEWNESS_LIMIT:
+        flags.append(
+            Flag(
+                code="skew-overall",
+                message=(
+                    f"The estimate as a whole has skewness {skew:.2f} (limit {OVERALL_SKEWNESS_LIMIT}): "
+                    + (
+                        "its long tail is on the low side of the audited total, so the normal-theory upper "
+                        "misstatement limit is probably too low."
+                        if skew < 0
+                        else "its long tail is on the high side of the audited total, so the normal-theory "
+                        "lower misstatement limit is probably too high and the upper limit of the audited total too low."
+                    )
+                ),
+                stratum=None,
+                rule=f"|skewness of the stratified estimator| < {OVERALL_SKEWNESS_LIMIT}",
+                source=_OVERALL_SOURCE,
+                advice="Read the second-opinion interval; enlarge the samples of the strata that carry the skewness.",
+            )
+        )
+    if method in est.BOOK_VALUE_METHODS and "nonzero_differences" in by_stratum:
+        nz = int(by_stratum["nonzero_differences"].to_numpy()[sampled].sum())
+        if 0 < nz < FEW_DIFFERENCES:
+            flags.append(
+                Flag(
+                    code="few-differences",
+                    message=(
+                        f"Only {nz} sampled item{'s' if nz != 1 else ''} outside the strata examined in full "
+                        f"differ from book value; {est.METHOD_NAMES[method]} limits are unreliable with so few."
+                    ),
+                    stratum=None,
+                    rule=f"at least {FEW_DIFFERENCES} non-zero differences in the sampled strata",
+                    source="common audit practice, threshold quoted from memory; " + _FEW_ERRORS_SOURCE,
+                    advice="Prefer mean-per-unit or the second-opinion interval, or examine more items.",
+                )
+            )
+    return tuple(flags), g1, skew
