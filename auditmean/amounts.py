@@ -37,31 +37,33 @@ _CUR = r"(?:[A-Z]{1,2}\p{Sc}|\p{Sc}|[A-Z]{3})"
 _SIGN = r"[-+\x{2212}]"
 _MINUS = r"[-\x{2212}]"
 # The loose shape of the number itself; :data:`_NUMBER` checks it strictly.
-_NUM = (
-    r"[0-9.,](?:[0-9.,'\x{2019}" + _SPACE_CLASS + r"]*[0-9.,])?(?:[eE][-+]?[0-9]+)?"
+_NUM = r"[0-9.,](?:[0-9.,'\x{2019}" + _SPACE_CLASS + r"]*[0-9.,])?"
+# The shape of a written amount. Signs may be matched in more places than
+# are allowed together, so that a text with two of them ("-(12)", "(12)-",
+# "--12") is recognised and refused for that reason; the signs, parentheses
+# and currency marks are then counted.
+_SHAPE = (
+    f"^(?:{_CUR})?{_WS}(?:{_SIGN})?{_WS}\\(?{_WS}(?:{_SIGN})?{_WS}(?:{_CUR})?{_WS}(?:{_SIGN})?{_WS}"
+    f"{_NUM}{_WS}(?:{_MINUS})?{_WS}(?:{_CUR})?{_WS}(?:{_MINUS})?{_WS}\\)?{_WS}(?:{_MINUS})?{_WS}"
+    f"(?:{_CUR})?$"
 )
-# Signs are matched in more places than are allowed together, so that a text
-# with two of them ("-(12)", "(12)-") is recognised and refused as such.
-_GRAMMAR = (
-    f"^(?P<c1>{_CUR})?{_WS}(?P<s0>{_SIGN})?{_WS}(?P<lp>\\()?{_WS}(?P<s1>{_SIGN})?{_WS}"
-    f"(?P<c2>{_CUR})?{_WS}(?P<s2>{_SIGN})?{_WS}(?P<num>{_NUM}){_WS}(?P<t1>{_MINUS})?{_WS}"
-    f"(?P<c3>{_CUR})?{_WS}(?P<t2>{_MINUS})?{_WS}(?P<rp>\\))?{_WS}(?P<t3>{_MINUS})?{_WS}"
-    f"(?P<c4>{_CUR})?$"
-)
-_CURRENCY_GROUPS = ("c1", "c2", "c3", "c4")
-_SIGN_GROUPS = ("s0", "s1", "s2", "t1", "t2", "t3")
+_EXPONENT = r"(?:[eE][-+]?[0-9]+)?"
+# Plain numbers (what programs write): read directly, exponent allowed.
+_PLAIN = {
+    ".": f"^[-+]?(?:[0-9]+(?:\\.[0-9]*)?|\\.[0-9]+){_EXPONENT}$",
+    ",": f"^[-+]?(?:[0-9]+(?:,[0-9]*)?|,[0-9]+){_EXPONENT}$",
+}
 
 # Characters that may separate groups of three digits besides the comma or
 # point: space, no-break space, thin space, narrow no-break space, apostrophe
 # and right single quotation mark (used in Swiss formatting).
 _SPACE_GROUP_SEPARATORS = (r"\x{0020}", r"\x{00A0}", r"\x{2009}", r"\x{202F}", "'", r"\x{2019}")
-_EXPONENT = r"(?:[eE][-+]?[0-9]+)?"
 
 
 def _number_pattern(decimal: str) -> str:
     d = r"\." if decimal == "." else ","
     point_or_comma = "," if decimal == "." else r"\."
-    plain = f"[0-9]+(?:{d}[0-9]*)?{_EXPONENT}|{d}[0-9]+{_EXPONENT}"
+    plain = f"[0-9]+(?:{d}[0-9]*)?|{d}[0-9]+"
     grouped = [
         f"[1-9][0-9]{{0,2}}(?:{sep}[0-9]{{3}})+(?:{d}[0-9]*)?"
         for sep in (point_or_comma, *_SPACE_GROUP_SEPARATORS)
@@ -74,6 +76,7 @@ _STRIP = {
     ".": "[," + "".join(_SPACE_GROUP_SEPARATORS) + "]",
     ",": r"[\." + "".join(_SPACE_GROUP_SEPARATORS) + "]",
 }
+_NOT_NUMBER = r"[-+\x{2212}()]"
 
 # Status of each value.
 _OK, _BLANK, _UNREADABLE, _TWO_CURRENCIES, _TWO_SIGNS, _PARENTHESES, _NOT_FINITE, _NOT_TEXT = range(8)
@@ -131,12 +134,15 @@ def parse_amounts(
 
     * **Numbers** (int, float, numpy numbers, :class:`decimal.Decimal`) pass
       through as float64. Booleans, dates and other objects are refused.
-    * **Text** is trimmed of surrounding white space and must then read as::
+    * **Text** is trimmed of surrounding white space. A *plain number* (what
+      programs write: ``1234.5``, ``-0.5``, ``+12``, ``1234.``, ``.5``,
+      ``1.5E+06``) is read directly. Any other text must read as::
 
-          [cur] [(] [sign] [cur] [sign] NUMBER [-] [cur] [-] [)] [cur]
+          [cur] [sign] [(] [sign] [cur] [sign] NUMBER [-] [cur] [-] [)] [-] [cur]
 
       with white space allowed between the parts, at most **one** currency
-      mark, at most **one** sign indicator and parentheses only in pairs.
+      mark, at most **one** sign indicator (so ``-(12)`` and ``--12`` are
+      refused) and parentheses only in pairs.
     * A **currency mark** is a currency symbol (any character of Unicode
       category Sc: ``$ € £ ¥ ¤ ₹`` ...), the symbol preceded by one or two
       capital letters (``US$``, ``HK$``, ``R$``), or three capital letters
@@ -155,15 +161,15 @@ def parse_amounts(
       so reading it would be a guess. Write the sign instead.
     * A lone dash (``-``, ``$ -``), which accounting formats show for zero but
       which also stands for "no amount", is refused; write ``0``.
-    * **NUMBER** with ``decimal="."``: digits with an optional decimal point
-      and fraction (``1234``, ``1234.5``, ``1234.``, ``.5``), optionally with
-      an exponent (``1.5E+06``); or digits in groups of exactly three
-      separated by commas (``1,234,567.89``), or all by the same one of space,
-      no-break space, thin space, narrow no-break space, apostrophe or ``’``
-      (``1 234 567.89``, ``1'234.50``). A grouped number must start with a
-      digit 1-9 and cannot have an exponent. So ``"1,234"`` is 1234, while
-      ``"1,23"``, ``"0,5"`` and ``"1.234,56"`` are refused with a message to
-      pass ``decimal=","`` if the comma is the decimal mark.
+    * **NUMBER** with ``decimal="."`` is either digits with an optional
+      decimal point and fraction (``1234``, ``1234.5``, ``.5``), or digits in
+      groups of exactly three separated all by commas (``1,234,567.89``) or
+      all by the same one of space, no-break space, thin space, narrow
+      no-break space, apostrophe or ``’`` (``1 234 567.89``, ``1'234.50``),
+      the first group starting with a digit 1-9. An exponent is accepted in
+      plain numbers only. So ``"1,234"`` is 1234, while ``"1,23"``, ``"0,123"``
+      and ``"1.234,56"`` are refused with a message to pass ``decimal=","``
+      if the comma is the decimal mark.
     * With ``decimal=","`` the roles of comma and point are swapped:
       ``"1.234,56"`` is 1234.56, ``"1.234"`` is 1234 and ``"1,234"`` is
       1.234; ``"1.23"`` is refused with a message to pass ``decimal="."``.
@@ -302,60 +308,74 @@ def _take_numbers(vals: np.ndarray, positions: np.ndarray, out: np.ndarray, stat
 
 
 def _parse_distinct(uniques: pd.Index, decimal: str) -> tuple[np.ndarray, np.ndarray, list[str | None]]:
-    """Values, statuses and currency marks of distinct texts (vectorised with pyarrow)."""
-    arr = pa.array(np.asarray(uniques, dtype=object), type=pa.string())
-    trimmed = pc.utf8_trim_whitespace(arr)
-    blank = _np_bool(pc.equal(trimmed, ""))
-    m = pc.extract_regex(trimmed, _GRAMMAR)
-    matched = _np_bool(pc.is_valid(m))
+    """Values, statuses and currency marks of distinct texts (vectorised with pyarrow).
 
-    fields = {
-        name: pc.if_else(pc.is_valid(m), pc.struct_field(m, name), "")
-        for name in (*_CURRENCY_GROUPS, *_SIGN_GROUPS, "lp", "rp", "num")
-    }
+    Plain numbers (``-1234.5``, ``1e3``) are converted directly; the other
+    texts are checked against :data:`_SHAPE`, their signs, parentheses and
+    currency marks counted, and what remains of the number checked against
+    :data:`_NUMBER` before conversion.
+    """
+    texts = pc.utf8_trim_whitespace(pa.array(np.asarray(uniques, dtype=object), type=pa.string()))
+    size = len(texts)
+    values = np.full(size, np.nan)
+    status = np.full(size, _UNREADABLE, dtype=np.int8)
+    marks: list[str | None] = [None] * size
+    status[_np_bool(pc.equal(texts, ""))] = _BLANK
 
-    def field(name: str) -> pa.Array:
-        return fields[name]
+    plain = _np_bool(pc.match_substring_regex(texts, _PLAIN[decimal]))
+    if plain.any():
+        digits = pc.filter(texts, pa.array(plain))
+        if decimal == ",":
+            digits = pc.replace_substring(digits, pattern=",", replacement=".")
+        values[plain] = pc.cast(digits, pa.float64()).to_numpy(zero_copy_only=False)
+        status[plain] = _OK
 
-    def present(name: str) -> np.ndarray:
-        return _np_bool(pc.not_equal(fields[name], ""))
+    rest = np.flatnonzero(~plain & (status != _BLANK))
+    if rest.size:
+        sub = pc.take(texts, pa.array(rest))
+        shaped = _np_bool(pc.match_substring_regex(sub, _SHAPE))
+        n_marks = _np_int(pc.count_substring_regex(sub, _CUR))
+        n_minus = _np_int(pc.count_substring(sub, "-")) + _np_int(pc.count_substring(sub, "\u2212"))
+        n_plus = _np_int(pc.count_substring(sub, "+"))
+        n_lp = _np_int(pc.count_substring(sub, "("))
+        n_rp = _np_int(pc.count_substring(sub, ")"))
+        n_signs = n_minus + n_plus + ((n_lp + n_rp) > 0)
+        number = pc.utf8_trim_whitespace(
+            pc.replace_substring_regex(pc.replace_substring_regex(sub, _CUR, ""), _NOT_NUMBER, "")
+        )
+        number_ok = _np_bool(pc.match_substring_regex(number, _NUMBER[decimal]))
 
-    n_marks = sum(present(g).astype(np.int8) for g in _CURRENCY_GROUPS)
-    lp, rp = present("lp"), present("rp")
-    n_signs = sum(present(g).astype(np.int8) for g in _SIGN_GROUPS) + (lp | rp)
-    num = field("num")
-    num_ok = _np_bool(pc.match_substring_regex(num, _NUMBER[decimal]))
+        sub_status = np.full(rest.size, _UNREADABLE, dtype=np.int8)
+        sub_status[shaped & number_ok] = _OK
+        sub_status[shaped & (n_marks > 1)] = _TWO_CURRENCIES
+        sub_status[shaped & (n_signs > 1)] = _TWO_SIGNS
+        sub_status[shaped & (n_lp != n_rp)] = _PARENTHESES
+        ok = sub_status == _OK
 
-    status = np.full(len(arr), _OK, dtype=np.int8)
-    status[~num_ok] = _UNREADABLE
-    status[matched & (n_marks > 1)] = _TWO_CURRENCIES
-    status[matched & (n_signs > 1)] = _TWO_SIGNS
-    status[matched & (lp != rp)] = _PARENTHESES
-    status[~matched] = _UNREADABLE
-    status[blank] = _BLANK
-    ok = status == _OK
+        if ok.any():
+            chosen = pa.array(ok)
+            digits = pc.replace_substring_regex(pc.filter(number, chosen), pattern=_STRIP[decimal], replacement="")
+            if decimal == ",":
+                digits = pc.replace_substring(digits, pattern=",", replacement=".")
+            magnitude = pc.cast(digits, pa.float64()).to_numpy(zero_copy_only=False)
+            negative = (n_minus[ok] + n_lp[ok]) > 0
+            values[rest[ok]] = np.where(negative, -magnitude, magnitude)
+            found = pc.struct_field(pc.extract_regex(pc.filter(sub, chosen), f"(?P<mark>{_CUR})"), "mark")
+            for i, m in zip(rest[ok], found.to_pylist()):
+                marks[i] = m
+        status[rest] = sub_status
 
-    cleaned = pc.replace_substring_regex(num, pattern=_STRIP[decimal], replacement="")
-    if decimal == ",":
-        cleaned = pc.replace_substring(cleaned, pattern=",", replacement=".")
-    cleaned = pc.if_else(pa.array(ok), cleaned, "0")
-    magnitude = pc.cast(cleaned, pa.float64()).to_numpy(zero_copy_only=False)
-
-    minus = lp.copy()
-    for g in _SIGN_GROUPS:
-        minus |= _np_bool(pc.is_in(field(g), value_set=pa.array(["-", "\u2212"])))
-    values = np.where(minus, -magnitude, magnitude)
-    values[~ok] = np.nan
-    not_finite = ok & ~np.isfinite(values)
-    status[not_finite] = _NOT_FINITE
-
-    no_mark = pa.scalar(None, type=pa.string())
-    mark = pc.coalesce(*[pc.if_else(pc.equal(field(g), ""), no_mark, field(g)) for g in _CURRENCY_GROUPS])
-    return values, status, mark.to_pylist()
+    status[(status == _OK) & ~np.isfinite(values)] = _NOT_FINITE
+    values[status != _OK] = np.nan
+    return values, status, marks
 
 
 def _np_bool(a: pa.Array) -> np.ndarray:
     return pc.fill_null(a, False).to_numpy(zero_copy_only=False).astype(bool)
+
+
+def _np_int(a: pa.Array) -> np.ndarray:
+    return pc.fill_null(a, 0).to_numpy(zero_copy_only=False).astype(np.int64)
 
 
 # ---------------------------------------------------------------------------
@@ -407,8 +427,9 @@ def _describe_failures(series: pd.Series, status: np.ndarray, decimal: str) -> s
     if other.size:
         examples = []
         seen: set[str] = set()
-        for i in other:
-            v = series.iloc[i]
+        elements = series.to_numpy(dtype=object)
+        for i in other[:100_000]:  # enough to find a few distinct examples
+            v = elements[i]
             if isinstance(v, np.generic):
                 v = v.item()
             key = repr(v)
@@ -427,18 +448,18 @@ def _describe_failures(series: pd.Series, status: np.ndarray, decimal: str) -> s
                 break
         more = other.size - len(examples)
         parts.append(
-            f"{other.size} cannot be read ("
+            f"{other.size:,} cannot be read ("
             + "; ".join(examples)
-            + (f"; and {more} more" if more > 0 else "")
+            + (f"; and {more:,} more" if more > 0 else "")
             + ")"
         )
     if blank.size:
         shown = ", ".join(str(spreadsheet_row(i)) for i in blank[:_EXAMPLES])
-        more = f" and {blank.size - _EXAMPLES} more" if blank.size > _EXAMPLES else ""
+        more = f" and {blank.size - _EXAMPLES:,} more" if blank.size > _EXAMPLES else ""
         noun = "row" if blank.size == 1 else "rows"
-        parts.append(f"{blank.size} blank or missing ({noun} {shown}{more})")
+        parts.append(f"{blank.size:,} blank or missing ({noun} {shown}{more})")
     return (
-        f"{n_bad} of {len(series):,} amounts could not be read and nothing was guessed: "
+        f"{n_bad:,} of {len(series):,} amounts could not be read and nothing was guessed: "
         + "; ".join(parts)
         + ". Accepted forms include 1234.56, 1,234.56, $1,234.56, 1 234.56 EUR, -12, (12.00) "
         "and 12.00- (see auditmean.amounts.parse_amounts)"

@@ -532,11 +532,15 @@ def _check_log_consistency(log: pd.DataFrame) -> None:
 
 
 def _ids_as_text(raw: pd.Series, file: str, column: str) -> pd.Series:
-    """Item ids as text: text cells as written, whole-number cells (Excel) as digits."""
+    """Item ids as text, read as :func:`auditmean.population.load_population` reads them.
+
+    Text cells without surrounding white space (:meth:`str.strip`), whole-number
+    cells (an Excel cell holding 1001) as their digits; anything else is refused.
+    """
 
     def one(v: Any) -> Any:
         if isinstance(v, str):
-            return v
+            return v.strip()
         if isinstance(v, (int, np.integer)) and not isinstance(v, (bool, np.bool_)):
             return str(int(v))
         return None if v is None or (isinstance(v, float) and math.isnan(v)) else v
@@ -587,7 +591,9 @@ def read_results_file(
     Returns
     -------
     pandas.DataFrame
-        ``item_id``, ``audited_value`` (float64), ``note`` (text or None) and
+        ``item_id`` (surrounding white space removed, whole-number cells as
+        digits, as the population intake does), ``audited_value`` (float64),
+        ``note`` (text or None) and
         ``row`` (the spreadsheet row of each entry), one row per data row.
 
     Raises
@@ -610,8 +616,13 @@ def read_results_file(
     ids = _ids_as_text(df[id_column], file, id_column)
     values = parse_amounts(df[value_column], decimal=decimal, column=value_column, file=file)
     if note_column:
-        notes = df[note_column].map(lambda v: None if v is None or (isinstance(v, float) and math.isnan(v)) else str(v))
-        notes = notes.map(_clean_note)
+        notes = pd.Series(
+            [
+                None if v is None or v is pd.NA or (isinstance(v, float) and math.isnan(v)) else _clean_note(str(v))
+                for v in df[note_column].astype(object)
+            ],
+            dtype=object,
+        )
     else:
         notes = pd.Series([None] * len(df), dtype=object)
     dup = ids.duplicated(keep=False).to_numpy()

@@ -411,9 +411,9 @@ def select(population: pd.DataFrame, sizes: Mapping[Any, int], seed: str) -> pd.
     ----------
     Ohlsson, E. (1995). Coordination of samples using permanent random
     numbers. In B. G. Cox et al. (eds), *Business Survey Methods*, Wiley,
-    ch. 9, 153-169.
+    ch. 9, 153-169 (chapter and pages from memory).
 
-    Tillé, Y. (2006). *Sampling Algorithms*. Springer.
+    Tillé, Y. (2006). *Sampling Algorithms*. Springer (chapter from memory).
 
     NIST (2015). FIPS PUB 180-4, *Secure Hash Standard (SHS)*.
 

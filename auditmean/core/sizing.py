@@ -5,8 +5,8 @@ The caller has validated every argument; nothing here checks again.
 Notation: stratum ``h`` holds ``N_h`` items whose values have standard
 deviation ``S_h`` (divisor ``N_h - 1``); ``n_h`` items are examined. The
 variance of the estimated total under stratified simple random sampling
-without replacement is (Cochran 1977, section 5.3, Theorem 5.3 applied to
-the total ``N ybar_st``)
+without replacement is (Cochran 1977, section 5.3, Theorem 5.3 -- theorem
+number from memory -- applied to the total ``N ybar_st``)
 
 .. math::  V(\hat Y) = \sum_h N_h (N_h - n_h) S_h^2 / n_h
            = \sum_h N_h^2 S_h^2 / n_h - \sum_h N_h S_h^2 .
@@ -221,7 +221,10 @@ def sample_size(
 def allocation_weights(rule: str, counts: np.ndarray, std_devs: np.ndarray) -> np.ndarray:
     """The weights ``w_h`` of an allocation rule: Neyman ``N_h S_h``, proportional ``N_h``, equal ``1``.
 
-    Empty strata get weight 0 under every rule.
+    Only ratios of weights matter, so they are scaled to a largest weight of
+    1; a weight below ``1e-200`` of the largest counts as 0 (it would
+    overflow the levels ``N_h / w_h``). Empty strata get weight 0 under
+    every rule.
     """
     counts = np.asarray(counts, dtype=float)
     if rule == "neyman":
@@ -232,7 +235,12 @@ def allocation_weights(rule: str, counts: np.ndarray, std_devs: np.ndarray) -> n
         w = np.ones_like(counts)
     else:
         raise ValueError(f"unknown allocation rule {rule!r}")
-    return np.where(counts > 0, w, 0.0)
+    w = np.where(counts > 0, w, 0.0)
+    top = float(w.max()) if w.size else 0.0
+    if top <= 0 or not math.isfinite(top):
+        return np.zeros_like(w) if top <= 0 else np.where(np.isinf(w), 1.0, 0.0)
+    w = w / top
+    return np.where(w < 1e-200, 0.0, w)
 
 
 def variance_of_total(counts: np.ndarray, std_devs: np.ndarray, sizes: np.ndarray) -> float:
@@ -256,8 +264,8 @@ def neyman_size(counts: np.ndarray, std_devs: np.ndarray, variance: float) -> fl
 
     .. math::  n = \frac{(\sum_h N_h S_h)^2}{V + \sum_h N_h S_h^2}
 
-    (Cochran 1977, section 5.9, eq. 5.25 as numbered in the brief of this
-    module; equation number not checked). A stratum whose Neyman share
+    (Cochran 1977, section 5.9, eq. 5.25; the equation number is quoted
+    from memory, not checked against the book). A stratum whose Neyman share
     ``n N_h S_h / sum N S`` exceeds ``N_h`` is examined in full, left out of
     both sums, and the formula is applied again to the rest with the same
     ``V`` (a stratum examined in full adds no variance); repeated until no
@@ -290,7 +298,7 @@ def stratified_size(
                \qquad w'_h = w_h / \sum_k w_k
 
     (Cochran 1977, section 5.9, the general form before Neyman weights are
-    put in; equation number not checked). No clipping: strata whose share
+    put in; quoted from memory, equation number not checked). No clipping: strata whose share
     exceeds their count are not treated here (see :func:`sizes_for_precision`).
     """
     N = np.asarray(counts, dtype=float)
@@ -385,11 +393,13 @@ def allocate(
     The caller guarantees ``sum m_h <= total <= sum N_h``.
     """
     N = np.asarray(counts, dtype=np.int64)
-    lo = np.minimum(int(minimum), N).astype(float)
-    up = N.astype(float)
-    w = allocation_weights(rule, N, std_devs)
-    x = continuous_allocation(float(total), w, lo, up, N)
-    return _round_to_total(x, int(total), lo.astype(np.int64), N)
+    lo = np.minimum(int(minimum), N)
+    return _allocate_within(int(total), N, allocation_weights(rule, N, std_devs), lo)
+
+
+def _allocate_within(total: int, N: np.ndarray, w: np.ndarray, lo: np.ndarray) -> np.ndarray:
+    x = continuous_allocation(float(total), w, lo.astype(float), N.astype(float), N)
+    return _round_to_total(x, total, lo.astype(np.int64), N)
 
 
 @dataclass(frozen=True)
@@ -432,8 +442,10 @@ def _level_for_variance(
     free = (n_mid > lo) & (n_mid < up)
     fixed = ~free
     a = float(np.sum(N[free] ** 2 * S2[free] / w[free]))
+    # B = sum over fixed strata of N (N - n) S^2 / n, minus sum over free strata of N S^2
+    # (written so, not as sum N^2 S^2 / n - sum N S^2, to avoid cancellation).
     fx = fixed & (S2 > 0) & (n_mid > 0)
-    b = float(np.sum(N[fx] ** 2 * S2[fx] / n_mid[fx])) - float(np.sum(N * S2))
+    b = float(np.sum(N[fx] * (N[fx] - n_mid[fx]) * S2[fx] / n_mid[fx])) - float(np.sum(N[free] * S2[free]))
     if a <= 0 or variance <= b:
         return float(bps[k])
     return float(min(max(a / (variance - b), left), bps[k]))
@@ -450,9 +462,11 @@ def sizes_for_precision(
     """Smallest whole sizes under an allocation rule whose variance of the total is at most ``variance``.
 
     Strata in ``take_all`` are examined in full. The others get
-    ``clip(lambda w_h, m_h, N_h)`` (see the module notes) at the level
+    ``clip(lambda w_h, m_h, N_h)`` (see the module notes; here a stratum
+    with ``S_h > 0`` has ``m_h >= 1`` even when the minimum is 0, since
+    with no item its variance term is infinite) at the level
     ``lambda`` that meets the target exactly; their sum is rounded up to a
-    whole total ``t`` and shared by :func:`allocate`. If rounding leaves the
+    whole total ``t`` and shared as :func:`allocate` does. If rounding leaves the
     variance a hair above the target, ``t`` grows one item at a time until
     it does not. With one stratum, Neyman weights and no minimum this is
     ``ceil(n0 / (1 + n0 / N))`` of :func:`sample_size` with
@@ -468,7 +482,10 @@ def sizes_for_precision(
     if not rest.any():
         return PrecisionSizes(sizes, cont, variance_of_total(N, S, sizes))
     Nr, Sr, S2r = N[rest], S[rest], S2[rest]
-    lo = np.minimum(int(minimum), Nr).astype(float)
+    # A stratum with spread needs at least one item, whatever the minimum,
+    # or the variance of the total is infinite.
+    lo_int = np.minimum(np.where(S2r > 0, max(int(minimum), 1), int(minimum)), Nr).astype(np.int64)
+    lo = lo_int.astype(float)
     up = Nr.astype(float)
     w = allocation_weights(rule, Nr, Sr)
     if variance_of_total(Nr, Sr, lo) <= variance or not (w > 0).any():
@@ -479,7 +496,7 @@ def sizes_for_precision(
     cont[rest] = x
     t = min(max(ceil_size(float(x.sum())), int(lo.sum())), int(Nr.sum()))
     while True:
-        n_rest = allocate(t, Nr, Sr, rule, minimum)
+        n_rest = _allocate_within(t, Nr, w, lo_int)
         v = variance_of_total(Nr, Sr, n_rest)
         if v <= variance * (1.0 + 1e-12) or t >= int(Nr.sum()):
             break
