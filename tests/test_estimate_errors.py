@@ -71,11 +71,16 @@ def test_full_stratum_book_total_must_match():
         estimate_total(SAMPLE, STRATA.assign(count=[10, 2], book_total=[210.0, 12.0]), method="ratio")
 
 
-def test_ratio_with_zero_book_values_is_not_applicable():
+def test_ratio_with_zero_book_values_falls_back_to_difference_with_a_flag():
     zero = SAMPLE.assign(book_value=[10.0, 20.0, 30.0, 0.0, 0.0])
-    with pytest.raises(MethodNotApplicable, match=r"'ratio'.*stratum 'b'.*add up to zero"):
-        estimate_total(zero, STRATA, method="ratio")
-    estimate_total(zero, STRATA, method="difference")  # the difference estimator is fine
+    for method in ("ratio", "combined_ratio"):
+        r = estimate_total(zero, STRATA, method=method)
+        d = estimate_total(zero, STRATA, method="difference")
+        row = r.by_stratum.set_index("stratum").loc["b"]
+        # stratum b by difference: X_b + N_b (ybar - xbar) = 44 + 8 * (5.5 - 0) = 88
+        assert row["total"] == pytest.approx(88.0, abs=1e-12)
+        assert row["total"] == pytest.approx(d.by_stratum.set_index("stratum").loc["b", "total"], rel=1e-15)
+        assert "ratio-undefined" in {f.code for f in r.flags if f.stratum == "b"}
 
 
 def test_thin_strata_with_error_treatment_and_nothing_to_average():

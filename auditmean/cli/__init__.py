@@ -21,7 +21,16 @@ from auditmean import __version__
 from auditmean.errors import AuditMeanError
 
 # Order is the order of the job; each name is a module of this package.
-SUBCOMMANDS: tuple[str, ...] = ("estimate", "evaluate")
+SUBCOMMANDS: tuple[str, ...] = (
+    "demo",
+    "plan",
+    "select",
+    "record",
+    "evaluate",
+    "estimate",
+    "verify",
+    "status",
+)
 
 
 def build_parser() -> argparse.ArgumentParser:

@@ -37,10 +37,11 @@ def rename_columns(df: pd.DataFrame, mapping: dict[str, str | None], file: str) 
     return df.rename(columns=renames)
 
 
-def add_table_options(p) -> None:
+def add_table_options(p, optional: bool = False) -> None:
     """The sample and strata files and the options that map their column names."""
-    p.add_argument("sample", help="sample file (CSV, TSV, Excel or Parquet): one row per examined item")
-    p.add_argument("strata", help="strata file: one row per population stratum")
+    nargs = "?" if optional else None
+    p.add_argument("sample", nargs=nargs, help="sample file (CSV, TSV, Excel or Parquet): one row per examined item")
+    p.add_argument("strata", nargs=nargs, help="strata file: one row per population stratum")
     cols = p.add_argument_group("column names (when the files use other names)")
     cols.add_argument("--stratum-column", default="stratum", metavar="NAME")
     cols.add_argument("--audited-column", default="audited_value", metavar="NAME")

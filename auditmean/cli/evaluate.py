@@ -11,14 +11,15 @@ from auditmean.cli._common import (
     print_json,
 )
 from auditmean.core.estimators import METHODS
+from auditmean.errors import InputError
 from auditmean.evaluation.conclusion import evaluate
 
 __all__ = ["register", "run", "add_risk_options"]
 
 
-def add_risk_options(p) -> None:
-    g = p.add_argument_group("materiality and risk")
-    g.add_argument("--tolerable", type=float, required=True, metavar="AMOUNT", help="tolerable misstatement")
+def add_risk_options(p, required: bool = True) -> None:
+    g = p.add_argument_group("materiality and risk" + ("" if required else " (two-file form; an engagement uses its plan's)"))
+    g.add_argument("--tolerable", type=float, required=required, metavar="AMOUNT", help="tolerable misstatement")
     g.add_argument("--expected", type=float, default=0.0, metavar="AMOUNT", help="expected misstatement (default 0)")
     g.add_argument(
         "--risk-acceptance", type=float, default=0.10, metavar="P",
@@ -42,14 +43,21 @@ def register(subparsers) -> argparse.ArgumentParser:
             "replaces, professional judgement."
         ),
     )
-    add_table_options(p)
-    add_risk_options(p)
+    add_table_options(p, optional=True)
+    e = p.add_argument_group("from an engagement folder (instead of the two files)")
+    e.add_argument("--engagement", default=None, metavar="DIR", help="evaluate the results recorded in this engagement")
+    e.add_argument("--population", default=None, metavar="FILE", help="the population file, if it has moved")
+    e.add_argument(
+        "--missing", choices=("error", "at_book_value", "as_zero"), default="error",
+        help="selected items without an audited value: refuse (default), take at book value, or as fully misstated",
+    )
+    add_risk_options(p, required=False)
     p.add_argument("--planned-allowance", type=float, default=None, metavar="AMOUNT", help="planned allowance for sampling risk, if the plan set one")
     p.add_argument("--method", action="append", choices=METHODS, help="only this method (repeat for several)")
     p.add_argument("--rely-on", choices=METHODS, default=None, help="the method the conclusion rests on (default: separate ratio, or mean-per-unit without book values)")
     p.add_argument("--distribution", choices=("normal", "t"), default="normal")
     p.add_argument("--replicates", type=int, default=2000, help="bootstrap replicates for second opinions (default 2000)")
-    p.add_argument("--seed", default="0", help="seed of the second-opinion bootstrap (recorded; default 0)")
+    p.add_argument("--seed", default=None, help="seed of the second-opinion bootstrap, recorded (default: the selection seed of an engagement, else 0)")
     p.add_argument("--single-item", choices=("average", "zero", "error"), default="average")
     p.add_argument("--unsampled", choices=("error", "book_value"), default="error")
     add_json_flag(p)
@@ -61,7 +69,33 @@ def _seed(text: str):
     return int(text) if text.isdigit() else text
 
 
+def _run_engagement(args) -> int:
+    from auditmean.cli.select import population_arg
+    from auditmean.workflow import evaluate_engagement, open_engagement
+
+    if args.sample or args.strata:
+        raise InputError("give either the two files or --engagement, not both", table="options")
+    eng, _population = open_engagement(args.engagement, population_arg(args))
+    ev = evaluate_engagement(
+        eng, missing_treatment=args.missing, primary=args.rely_on, distribution=args.distribution,
+        bootstrap_replicates=args.replicates, seed=None if args.seed is None else _seed(args.seed),
+        single_item=args.single_item, unsampled=args.unsampled,
+    )
+    if args.json:
+        print_json(ev.to_dict())
+    else:
+        print(ev.summary())
+        print(f"\nSaved in {eng.folder / 'evaluations'} (missing items treated: {args.missing}).")
+    return 0
+
+
 def run(args) -> int:
+    if args.engagement:
+        return _run_engagement(args)
+    if not (args.sample and args.strata):
+        raise InputError("give a sample file and a strata file, or --engagement DIR", table="options")
+    if args.tolerable is None:
+        raise InputError("--tolerable is needed with the two-file form", table="options")
     sample, strata = load_sample_and_strata(args)
     ev = evaluate(
         sample,
@@ -75,7 +109,7 @@ def run(args) -> int:
         primary=args.rely_on,
         distribution=args.distribution,
         bootstrap_replicates=args.replicates,
-        seed=_seed(args.seed),
+        seed=0 if args.seed is None else _seed(args.seed),
         single_item=args.single_item,
         unsampled=args.unsampled,
         sample_file=args.sample,

@@ -133,7 +133,7 @@ def rescaling_bootstrap(
                 dy = yh[None, :] - mean_y[:, h : h + 1]
                 sxx = np.sum(g * dx * dx, axis=1)
                 sxy = np.sum(g * dx * dy, axis=1)
-                fixed = point.slope_fallback[h]
+                fixed = point.fallback[h]
                 with np.errstate(invalid="ignore", divide="ignore"):
                     b = np.where(sxx > 0, sxy / np.where(sxx > 0, sxx, 1.0), 1.0)
                 slope[:, h] = 1.0 if fixed else b
@@ -144,12 +144,13 @@ def rescaling_bootstrap(
         elif method == "difference":
             t = X + N * (mean_y - mean_x)
         elif method == "ratio":
-            t = mean_y / mean_x * X
+            t = np.where(point.fallback, X + N * (mean_y - mean_x), mean_y / mean_x * X)
         elif method == "combined_ratio":
             sampled = (status == est.STATUS_SAMPLED) | (status == est.STATUS_THIN)
-            y_hat = np.sum(np.where(sampled, N * mean_y, 0.0), axis=1)
-            x_hat = np.sum(np.where(sampled, N * mean_x, 0.0), axis=1)
-            t = (y_hat / x_hat)[:, None] * X
+            with_ratio = sampled & ~point.fallback
+            y_hat = np.sum(np.where(with_ratio, N * mean_y, 0.0), axis=1)
+            x_hat = np.sum(np.where(with_ratio, N * mean_x, 0.0), axis=1)
+            t = np.where(point.fallback, X + N * (mean_y - mean_x), (y_hat / x_hat)[:, None] * X)
         elif method == "regression":
             t = N * (mean_y + slope * (X / N - mean_x))
         else:

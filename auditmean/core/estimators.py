@@ -44,6 +44,11 @@ Combined ratio. The ratio is taken over the sampled strata only; strata
 examined in full contribute their exact audited totals and are not scaled
 by it.
 
+Zero balances. A sampled stratum whose book values add up to zero has no
+ratio; under either ratio estimator it is estimated by difference
+estimation (``X_h + N_h dbar_h``, which is ``N_h ybar_h`` for a stratum of
+zeros) and the result is flagged.
+
 Strata whose variance cannot be estimated (one sampled item out of more, or
 two for regression, which spends a degree of freedom on the slope) get the
 treatment named by ``single_item``:
@@ -139,9 +144,11 @@ class CoreEstimate:
         every sampled stratum) or slope ``b_h`` (regression); NaN otherwise.
     status:
         One of the ``STATUS_*`` strings per stratum.
-    slope_fallback:
-        Regression only: strata whose sampled book values are all equal, so
-        that the slope is undefined and 1 is used (the difference estimator).
+    fallback:
+        Strata estimated by difference estimation because the method's
+        coefficient is undefined there: for regression, sampled book values
+        all equal (slope fixed at 1); for the ratio estimators, sampled book
+        values adding up to zero (a stratum of zero balances).
     item_values:
         What the estimator averages, per sampled item, aligned with the
         input: ``y`` for mean-per-unit, ``y - x`` for difference, residuals
@@ -158,7 +165,7 @@ class CoreEstimate:
     residual_var: np.ndarray
     coefficient: np.ndarray
     status: np.ndarray
-    slope_fallback: np.ndarray
+    fallback: np.ndarray
     item_values: np.ndarray
 
     @property
@@ -245,7 +252,7 @@ def estimate_strata(
     sum_y = group_sums(codes, H, y)
     mean_y = group_means(codes, H, y, n)
     coefficient = np.full(H, np.nan)
-    slope_fallback = np.zeros(H, dtype=bool)
+    fallback = np.zeros(H, dtype=bool)
     adjustment = np.ones(H)
 
     with np.errstate(invalid="ignore", divide="ignore"):
@@ -260,26 +267,30 @@ def estimate_strata(
                 e = y - x
                 total_h = X + N * (mean_y - mean_x)
                 ddof = 1
-            elif method == "ratio":
-                ratio = group_sums(codes, H, y) / group_sums(codes, H, x)
-                coefficient = np.where(sampled, ratio, np.nan)
-                e = y - ratio[codes] * x
-                total_h = ratio * X
+            elif method in ("ratio", "combined_ratio"):
+                # A stratum whose sampled book values add up to zero (a stratum
+                # of zero balances) has no ratio; it is estimated by difference
+                # estimation, which there is X_h + N_h ybar_h, and flagged.
+                sum_x = group_sums(codes, H, x)
+                fallback = sampled & (sum_x == 0)
+                with_ratio = sampled & ~fallback
+                if method == "ratio":
+                    ratio = np.where(with_ratio, group_sums(codes, H, y) / np.where(sum_x != 0, sum_x, 1.0), np.nan)
+                    if ratio_variance == "sample_book_mean":
+                        adjustment = np.where(with_ratio, (X / N / mean_x) ** 2, 1.0)
+                else:
+                    y_hat = np.sum(np.where(with_ratio, N * mean_y, 0.0))
+                    x_hat = np.sum(np.where(with_ratio, N * mean_x, 0.0))
+                    rc = y_hat / x_hat if x_hat != 0 else np.nan
+                    ratio = np.where(with_ratio, rc, np.nan)
+                    if ratio_variance == "sample_book_mean":
+                        x_known = np.sum(np.where(with_ratio, X, 0.0))
+                        adj = (x_known / x_hat) ** 2 if x_hat != 0 else np.nan
+                        adjustment = np.where(with_ratio, adj, 1.0)
+                coefficient = ratio
+                e = np.where(fallback[codes], y - x, y - np.where(fallback, 0.0, ratio)[codes] * x)
+                total_h = np.where(fallback, X + N * (mean_y - mean_x), ratio * X)
                 ddof = 1
-                if ratio_variance == "sample_book_mean":
-                    adjustment = np.where(sampled, (X / N / mean_x) ** 2, 1.0)
-            elif method == "combined_ratio":
-                y_hat = np.sum(np.where(sampled, N * mean_y, 0.0))
-                x_hat = np.sum(np.where(sampled, N * mean_x, 0.0))
-                rc = y_hat / x_hat if x_hat != 0 else np.nan
-                coefficient = np.where(sampled, rc, np.nan)
-                e = y - rc * x
-                total_h = rc * X
-                ddof = 1
-                if ratio_variance == "sample_book_mean":
-                    x_known = np.sum(np.where(sampled, X, 0.0))
-                    adj = (x_known / x_hat) ** 2 if x_hat != 0 else np.nan
-                    adjustment = np.where(sampled, adj, 1.0)
             elif method == "regression":
                 sxx = centred_cross_sums(codes, H, x, mean_x)
                 sxy = centred_cross_sums(codes, H, x, mean_x, y, mean_y)
@@ -288,7 +299,7 @@ def estimate_strata(
                 # difference estimator (book and audited values share a scale).
                 flat = sampled & ~(sxx > 0)
                 slope = np.where(flat, 1.0, sxy / np.where(sxx > 0, sxx, 1.0))
-                slope_fallback = flat
+                fallback = flat
                 coefficient = np.where(sampled, slope, np.nan)
                 e = (y - mean_y[codes]) - slope[codes] * (x - mean_x[codes])
                 total_h = N * (mean_y + slope * (X / N - mean_x))
@@ -347,6 +358,6 @@ def estimate_strata(
         residual_var=residual_var,
         coefficient=coefficient,
         status=status,
-        slope_fallback=slope_fallback,
+        fallback=fallback,
         item_values=np.asarray(e, dtype=float),
     )

@@ -83,5 +83,6 @@ FLAG_CODES: dict[str, str] = {
     "variance-not-estimable": "too few items in a stratum to estimate the estimator's variance",
     "unsampled-stratum": "a stratum with items but none sampled",
     "slope-undefined": "all sampled book values in a stratum are equal: the regression slope is undefined",
+    "ratio-undefined": "a stratum's sampled book values add up to zero: no ratio, difference estimation used",
     "df-undefined": "Satterthwaite's effective degrees of freedom cannot be computed",
 }

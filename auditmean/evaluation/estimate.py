@@ -290,25 +290,6 @@ def _check_applicable(method, design: _Design, single_item, unsampled):
                 f"no stratum has the {need} or more sampled items needed to estimate a variance, "
                 f"so there is nothing to average for the thin strata; sample more items",
             )
-    if method in ("ratio", "combined_ratio"):
-        sampled = (status == est.STATUS_SAMPLED) | (status == est.STATUS_THIN)
-        sum_x = np.bincount(design.codes, weights=design.book, minlength=len(labels))
-        if method == "ratio":
-            zero = np.flatnonzero(sampled & (sum_x == 0))
-            if zero.size:
-                raise MethodNotApplicable(
-                    method,
-                    "the sampled book values of this stratum add up to zero, so no ratio can be "
-                    "formed; use difference or mean-per-unit estimation for it",
-                    stratum=labels[zero[0]],
-                )
-        elif sampled.any():
-            N = design.counts.astype(float)
-            x_hat = np.sum(np.where(sampled, N * sum_x / np.maximum(n, 1), 0.0))
-            if x_hat == 0:
-                raise MethodNotApplicable(
-                    method, "the estimated book total of the sampled strata is zero; no ratio can be formed"
-                )
 
 
 def prepare_design(sample, strata, method, single_item="average", unsampled="error", sample_file=None, strata_file=None) -> _Design:
@@ -454,7 +435,9 @@ def _by_stratum(method, design: _Design, core: est.CoreEstimate, single_item, un
     if unsampled == "book_value":
         treatment[core.status == est.STATUS_UNSAMPLED] = "book total taken as audited, no variance"
     if method == "regression":
-        treatment[core.slope_fallback & ~thin] = "slope fixed at 1 (sampled book values all equal)"
+        treatment[core.fallback & ~thin] = "slope fixed at 1 (sampled book values all equal)"
+    elif method in ("ratio", "combined_ratio"):
+        treatment[core.fallback] = "difference estimation (sampled book values add up to zero)"
     data = {
         "stratum": design.labels,
         "status": core.status.astype(str),

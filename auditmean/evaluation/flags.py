@@ -76,7 +76,7 @@ def structural_flags(
                 )
             )
     if method == "regression":
-        for h in np.flatnonzero(core.slope_fallback & (status == est.STATUS_SAMPLED)):
+        for h in np.flatnonzero(core.fallback & (status == est.STATUS_SAMPLED)):
             flags.append(
                 Flag(
                     code="slope-undefined",
@@ -88,6 +88,21 @@ def structural_flags(
                     rule="the regression slope needs spread in the sampled book values",
                     source="Cochran 1977, eq. 7.17 (b = s_xy / s_x^2)",
                     advice="Use difference estimation for this stratum, or stratify so book values vary.",
+                )
+            )
+    if method in ("ratio", "combined_ratio"):
+        for h in np.flatnonzero(core.fallback):
+            flags.append(
+                Flag(
+                    code="ratio-undefined",
+                    message=(
+                        f"Stratum {labels[h]!r}: the sampled book values add up to zero, so no ratio can be "
+                        f"formed; the stratum was estimated by difference estimation."
+                    ),
+                    stratum=labels[h],
+                    rule="a ratio needs a non-zero sampled book total",
+                    source="Cochran 1977, section 6.2 (R = ybar / xbar)",
+                    advice="Keep zero balances in their own stratum and test them by a procedure of their own.",
                 )
             )
     if method in est.BOOK_VALUE_METHODS and "nonzero_differences" in by_stratum:
@@ -302,7 +317,8 @@ def normality_flags(
                     code="few-differences",
                     message=(
                         f"Only {nz} sampled item{'s' if nz != 1 else ''} outside the strata examined in full "
-                        f"differ from book value; {est.METHOD_NAMES[method]} limits are unreliable with so few."
+                        f"{'differ' if nz != 1 else 'differs'} from book value; {est.METHOD_NAMES[method]} "
+                        f"limits are unreliable with so few."
                     ),
                     stratum=None,
                     rule=f"at least {FEW_DIFFERENCES} non-zero differences in the sampled strata",

@@ -1,0 +1,242 @@
+"""The job as one chain over an engagement folder: plan, select, record, evaluate, verify.
+
+Each function here joins two or more steps and writes what it produced into
+the engagement folder (:mod:`auditmean.engagement`), so the command line,
+the widgets and the demo run the same chain and a user can stop after any
+step and resume later. Nothing is computed here: the numbers come from
+:mod:`auditmean.strata`, :mod:`auditmean.plan`, :mod:`auditmean.selection`
+and :mod:`auditmean.evaluation`.
+
+What ``plan.json`` holds (schema version 1)::
+
+    {"schema_version": 1, "kind": "engagement_plan",
+     "population_reading": {how to read the population file again},
+     "strata": Strata.to_dict(), "plan": Plan.to_dict()}
+
+The strata are recomputed from the population with the recorded
+``stratify`` arguments whenever the assignment of items is needed (it is
+deterministic), and checked against the recorded strata table.
+"""
+
+from __future__ import annotations
+
+import math
+import os
+from dataclasses import dataclass
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+import pandas as pd
+
+from auditmean._records import SCHEMA_VERSION
+from auditmean.engagement import Engagement
+from auditmean.errors import RecordError
+from auditmean.evaluation.conclusion import Evaluation, evaluate
+from auditmean.plan import Plan, plan_sample
+from auditmean.population import Population, load_population
+from auditmean.selection import VerificationResult, propose_seed, select, verify_selection
+from auditmean.strata import Strata, stratify
+
+__all__ = [
+    "PopulationReading",
+    "start_engagement",
+    "open_engagement",
+    "engagement_plan",
+    "engagement_strata",
+    "draw_selection",
+    "evaluate_engagement",
+    "verify_engagement",
+    "strata_table",
+]
+
+
+@dataclass(frozen=True)
+class PopulationReading:
+    """How to read a population file: the arguments of :func:`load_population`."""
+
+    source: str
+    id_column: str
+    value_column: str
+    stratum_column: str | None = None
+    decimal: str = "."
+    sep: str | None = None
+    sheet: str | int | None = None
+
+    def load(self) -> Population:
+        return load_population(
+            self.source,
+            id_column=self.id_column,
+            value_column=self.value_column,
+            stratum_column=self.stratum_column,
+            decimal=self.decimal,
+            sep=self.sep,
+            sheet=self.sheet,
+        )
+
+    def to_dict(self) -> dict[str, Any]:
+        return {
+            "source": str(self.source),
+            "id_column": self.id_column,
+            "value_column": self.value_column,
+            "stratum_column": self.stratum_column,
+            "decimal": self.decimal,
+            "sep": self.sep,
+            "sheet": self.sheet,
+        }
+
+    @classmethod
+    def from_dict(cls, d: dict[str, Any]) -> PopulationReading:
+        return cls(**{k: d.get(k) for k in ("source", "id_column", "value_column", "stratum_column", "sep", "sheet")},
+                   decimal=d.get("decimal") or ".")
+
+
+def start_engagement(
+    folder: str | os.PathLike[str],
+    reading: PopulationReading,
+    *,
+    stratify_options: dict[str, Any],
+    plan_options: dict[str, Any],
+    population: Population | None = None,
+) -> tuple[Engagement, Population, Strata, Plan]:
+    """Read the population, stratify it, plan the sample, and save all of it in a new engagement."""
+    population = population if population is not None else reading.load()
+    strata = stratify(population, **stratify_options)
+    plan = plan_sample(strata, **plan_options)
+    eng = Engagement.create(folder, population)
+    eng.save_plan(
+        {
+            "schema_version": SCHEMA_VERSION,
+            "kind": "engagement_plan",
+            "population_reading": reading.to_dict(),
+            "strata": strata.to_dict(),
+            "plan": plan.to_dict(),
+        }
+    )
+    return eng, population, strata, plan
+
+
+def _record(eng: Engagement) -> dict[str, Any]:
+    rec = eng.plan()
+    path = str(Path(eng.folder) / "plan.json")
+    if rec is None:
+        raise RecordError(path, "no plan has been saved yet; plan the sample first (auditmean plan)")
+    if rec.get("kind") != "engagement_plan" or "plan" not in rec or "strata" not in rec:
+        raise RecordError(path, "not a plan written by auditmean's engagement chain (kind 'engagement_plan')")
+    return rec
+
+
+def open_engagement(folder: str | os.PathLike[str], population: Population | None = None) -> tuple[Engagement, Population]:
+    """Open an engagement and its population (read again from the recorded file when not given).
+
+    The population's content fingerprint must equal the recorded one
+    (:meth:`Engagement.open` refuses it otherwise).
+    """
+    if population is None:
+        bare = Engagement.open(folder)
+        rec = _record(bare)
+        reading = PopulationReading.from_dict(rec["population_reading"])
+        if not Path(reading.source).exists():
+            raise RecordError(
+                reading.source,
+                "the population file recorded for this engagement is not there any more; "
+                "give its current location (--population)",
+            )
+        population = reading.load()
+    return Engagement.open(folder, population), population
+
+
+def engagement_plan(eng: Engagement) -> Plan:
+    """The saved plan."""
+    return Plan.from_dict(_record(eng)["plan"], source=str(Path(eng.folder) / "plan.json"))
+
+
+def engagement_strata(eng: Engagement, population: Population) -> Strata:
+    """The strata, recomputed from the population with the recorded arguments and checked."""
+    rec = _record(eng)
+    params = dict(rec["strata"].get("parameters") or {})
+    strata = stratify(population, **params)
+    recorded = pd.DataFrame(rec["strata"]["table"])
+    same = (
+        list(strata.table["stratum"].astype(str)) == [str(s) for s in recorded["stratum"]]
+        and np.array_equal(strata.table["count"].to_numpy(), recorded["count"].to_numpy())
+        and np.allclose(strata.table["book_total"].to_numpy(float), recorded["book_total"].to_numpy(float), rtol=0, atol=0.005)
+    )
+    if not same:
+        raise RecordError(
+            str(Path(eng.folder) / "plan.json"),
+            "the strata recomputed from the population differ from the recorded ones; "
+            "the population or auditmean's stratification has changed since the plan",
+        )
+    return strata
+
+
+def strata_table(plan: Plan) -> pd.DataFrame:
+    """The strata table estimation takes (``stratum``, ``count``, ``book_total``) from a plan."""
+    t = plan.table
+    return pd.DataFrame({"stratum": t["stratum"].astype(str), "count": t["count"], "book_total": t["book_total"]})
+
+
+def draw_selection(eng: Engagement, population: Population, seed: str | None = None) -> tuple[pd.DataFrame, str]:
+    """Select the planned sample with ``seed`` (a proposed one when not given) and save it."""
+    plan = engagement_plan(eng)
+    strata = engagement_strata(eng, population)
+    frame = strata.assignment_frame()
+    seed = propose_seed() if seed is None else seed
+    selection = select(frame[["item_id", "stratum"]], plan.sizes, seed)
+    eng.save_selection(selection, seed, plan.sizes, frame=frame[["item_id", "stratum"]])
+    return eng.selection(), seed
+
+
+def verify_engagement(eng: Engagement, population: Population) -> VerificationResult:
+    """Recompute the selection from the population and the recorded seed, and compare."""
+    strata = engagement_strata(eng, population)
+    frame = strata.assignment_frame()[["item_id", "stratum"]]
+    recorded = eng.selection()
+    if recorded is None:
+        raise RecordError(str(eng.folder), "no selection has been saved yet")
+    return verify_selection(frame, eng.sizes(), eng.seed(), recorded)
+
+
+def evaluate_engagement(
+    eng: Engagement,
+    *,
+    missing_treatment: str = "error",
+    primary: str | None = None,
+    seed: int | str | None = None,
+    save: bool = True,
+    **options: Any,
+) -> Evaluation:
+    """Evaluate the recorded results with the plan's tolerable misstatement and risks.
+
+    ``missing_treatment`` says what to do with selected items that have no
+    audited value yet (see :func:`auditmean.results.sample_frame`); the
+    saved record says which was used. The bootstrap seed defaults to the
+    selection seed, so the second opinion can be re-performed from the
+    record.
+    """
+    plan = engagement_plan(eng)
+    frame = eng.sample_frame(missing_treatment=missing_treatment)
+    sample = frame.frame[["stratum", "item_id", "book_value", "audited_value"]].copy()
+    sample["stratum"] = sample["stratum"].astype(str)
+    if primary is None:
+        primary = plan.method if plan.method in ("mpu", "difference", "ratio") else None
+    ev = evaluate(
+        sample,
+        strata_table(plan),
+        tolerable=plan.tolerable,
+        expected=plan.expected,
+        risk_incorrect_acceptance=plan.risk_incorrect_acceptance,
+        risk_incorrect_rejection=plan.risk_incorrect_rejection,
+        planned_allowance=plan.planned_allowance if math.isfinite(plan.planned_allowance) else None,
+        primary=primary,
+        seed=eng.seed() if seed is None else seed,
+        **options,
+    )
+    if save:
+        d = ev.to_dict()
+        d["missing_treatment"] = frame.missing_treatment
+        d["missing_items"] = [str(i) for i in frame.missing["item_id"]] if len(frame.missing) else []
+        eng.save_evaluation(d)
+    return ev
+
