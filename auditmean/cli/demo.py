@@ -14,11 +14,15 @@ from pathlib import Path
 
 import pandas as pd
 
-from auditmean.cautions import cautions_text
 from auditmean.cli._common import add_json_flag, print_json
 from auditmean.errors import InputError
 from auditmean.plan import MisstatementPattern
-from auditmean.workflow import PopulationReading, draw_selection, evaluate_engagement, start_engagement
+from auditmean.workflow import (
+    PopulationReading,
+    draw_selection,
+    evaluate_engagement,
+    start_engagement,
+)
 
 __all__ = ["register", "run", "find_demo_data", "DEMO_SETTINGS"]
 
@@ -99,6 +103,3 @@ def run(args) -> int:
     print(evaluation.summary())
     return 0
 
-
-# keep the cautions importable next to the demo's printout for the README
-DEMO_CAUTIONS = cautions_text()
