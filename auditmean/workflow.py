@@ -48,7 +48,12 @@ __all__ = [
     "evaluate_engagement",
     "verify_engagement",
     "strata_table",
+    "simulate_engagement",
+    "COVERAGE_FILE",
 ]
+
+#: Where the coverage check of an engagement is kept (CoverageResult.to_dict()).
+COVERAGE_FILE = "coverage.json"
 
 
 @dataclass(frozen=True)
@@ -240,3 +245,29 @@ def evaluate_engagement(
         eng.save_evaluation(d)
     return ev
 
+
+
+def simulate_engagement(eng: Engagement, population: Population, model: Any, *, save: bool = True, **options: Any):
+    """Run the coverage check of the engagement's plan on its own population and keep the result.
+
+    The design is the plan's (strata recomputed from the population, the
+    plan's sizes, tolerable and expected misstatement unless ``options``
+    say otherwise); ``model`` is a :class:`auditmean.coverage.MisstatementModel`.
+    The result is written atomically to ``coverage.json`` in the folder
+    (replacing an earlier check; the log keeps a line for each run).
+    """
+    from auditmean._atomic import json_text, write_text_atomic
+    from auditmean._records import json_safe
+    from auditmean.coverage import simulate_coverage
+
+    plan = engagement_plan(eng)
+    strata = engagement_strata(eng, population)
+    options.setdefault("tolerable", plan.tolerable)
+    options.setdefault("expected", plan.expected)
+    labels = np.asarray(strata.labels, dtype=object)[strata.codes]
+    result = simulate_coverage(strata.book_values, labels, plan.sizes, model, **options)
+    if save:
+        data = json_safe(result.to_dict())
+        write_text_atomic(Path(eng.folder) / COVERAGE_FILE, json_text(data))
+        eng._log("coverage check saved", file=COVERAGE_FILE, replications=int(result.replications), partial=bool(result.partial))
+    return result

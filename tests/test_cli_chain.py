@@ -82,3 +82,28 @@ def test_demo_runs_the_whole_job(tmp_path, capsys):
     text = capsys.readouterr().out
     assert "invented data" in text and "Relied-on method" in text and "Caution:" in text
     assert (folder / "selection.csv").exists() and list((folder / "evaluations").glob("*.json"))
+
+
+def test_simulate_on_an_engagement_keeps_the_result(tmp_path, ledger_file, capsys):
+    from auditmean.coverage import FixedTaint, MisstatementModel, simulate_coverage
+    from auditmean.workflow import engagement_strata
+
+    eng_dir = tmp_path / "eng"
+    assert main(["plan", str(ledger_file), "--id-column", "doc", "--value-column", "amount", "--tolerable", "50000",
+                 "--strata", "3", "--engagement", str(eng_dir)]) == 0
+    capsys.readouterr()
+    assert main(["simulate", "--engagement", str(eng_dir), "--error-rate", "0.05", "--taint", "0.3",
+                 "--replications", "300", "--seed", "5", "--json", "--no-progress"]) == 0
+    out = json.loads(capsys.readouterr().out)
+    saved = json.loads((eng_dir / "coverage.json").read_text(encoding="utf-8"))
+    assert saved["by_estimator"] == out["by_estimator"]
+    # the same design called directly gives the same numbers (same seed)
+    eng, pop = open_engagement(eng_dir)
+    strata = engagement_strata(eng, pop)
+    import numpy as np
+
+    labels = np.asarray(strata.labels, dtype=object)[strata.codes]
+    direct = simulate_coverage(strata.book_values, labels, engagement_plan(eng).sizes,
+                               MisstatementModel(0.05, FixedTaint(0.3)), replications=300, seed=5,
+                               tolerable=50000.0, expected=0.0)
+    assert direct.to_dict()["by_estimator"] == saved["by_estimator"]

@@ -24,6 +24,7 @@ from auditmean.errors import AuditMeanError
 SUBCOMMANDS: tuple[str, ...] = (
     "demo",
     "plan",
+    "simulate",
     "select",
     "record",
     "evaluate",
