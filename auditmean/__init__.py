@@ -12,6 +12,16 @@ methodology that govern the engagement.
 """
 
 from auditmean._version import __version__
+from auditmean.coverage import (
+    BetaTaint,
+    CoverageResult,
+    FixedTaint,
+    MisstatementModel,
+    ObservedTaints,
+    UniformTaint,
+    simulate_coverage,
+)
+from auditmean.engagement import Engagement
 from auditmean.errors import (
     AuditMeanError,
     InputError,
@@ -20,6 +30,10 @@ from auditmean.errors import (
     RecordError,
 )
 from auditmean.evaluation import Estimate, Evaluation, estimate_total, evaluate, second_opinion
+from auditmean.plan import MisstatementPattern, Plan, allocate, plan_sample, sample_size
+from auditmean.population import Population, Profile, load_population, profile
+from auditmean.selection import extend_selection, propose_seed, select, verify_selection
+from auditmean.strata import Strata, stratify
 
 __all__ = [
     "__version__",
@@ -28,6 +42,29 @@ __all__ = [
     "MethodNotApplicable",
     "ParameterError",
     "RecordError",
+    "load_population",
+    "profile",
+    "Population",
+    "Profile",
+    "stratify",
+    "Strata",
+    "plan_sample",
+    "sample_size",
+    "allocate",
+    "Plan",
+    "MisstatementPattern",
+    "select",
+    "extend_selection",
+    "verify_selection",
+    "propose_seed",
+    "Engagement",
+    "simulate_coverage",
+    "CoverageResult",
+    "MisstatementModel",
+    "FixedTaint",
+    "UniformTaint",
+    "BetaTaint",
+    "ObservedTaints",
     "Estimate",
     "estimate_total",
     "Evaluation",
