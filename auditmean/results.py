@@ -832,8 +832,9 @@ def sample_frame(
     if absent.any() and missing_treatment == "error":
         raise InputError(
             f"{int(absent.sum())} of {len(frame)} selected items have no audited value yet: "
-            f"{_id_list(missing['item_id'])}. Enter them, or choose missing_treatment="
-            "'at_book_value' (treat as correct) or 'as_zero' (treat as fully misstated)",
+            f"{_id_list(missing['item_id'])}. Enter them, or choose how to treat them: "
+            "missing_treatment='at_book_value' (treat as correct) or 'as_zero' (treat as fully "
+            "misstated); on the command line, --missing at_book_value or --missing as_zero",
             table="results",
         )
     source = np.where(absent, f"missing: {missing_treatment}", "entered").astype(object)
