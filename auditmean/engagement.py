@@ -149,7 +149,10 @@ def population_fingerprint(population: Any) -> dict[str, Any]:
         v = _get(population, name)
         out[name] = None if v is None else str(v)
     items = _get(population, "items")
-    out["n_items"] = int(len(items)) if isinstance(items, pd.DataFrame) else None
+    count = _get(population, "count")  # a population read from a large file holds no items table
+    out["n_items"] = (
+        int(len(items)) if isinstance(items, pd.DataFrame) else (int(count) if isinstance(count, (int, np.integer)) else None)
+    )
     return out
 
 
@@ -753,11 +756,15 @@ class Engagement:
     def sample_frame(self, *, missing_treatment: str = "error") -> SampleFrame:
         """The sample for estimation (:func:`auditmean.results.sample_frame`); needs the population."""
         items = _get(self._population, "items") if self._population is not None else None
+        selection = self._require_selection()
+        lookup = getattr(self._population, "items_for", None)
+        if not isinstance(items, pd.DataFrame) and callable(lookup):  # a large file: only the selected items
+            items = lookup(selection["item_id"].tolist())
         if not isinstance(items, pd.DataFrame):
             raise ParameterError(
                 "population", "the engagement was opened without its population; open it with the population"
             )
-        return sample_frame(self._require_selection(), self.results(), items, missing_treatment=missing_treatment)
+        return sample_frame(selection, self.results(), items, missing_treatment=missing_treatment)
 
     # ------------------------------------------------------------------ evaluations
 

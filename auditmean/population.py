@@ -10,12 +10,14 @@ treatment. The arithmetic lives in :mod:`auditmean.core.profile`.
 
 from __future__ import annotations
 
+import csv
 import hashlib
 import html
 import io
 import math
 import numbers
 import os
+from concurrent.futures import ThreadPoolExecutor
 from dataclasses import dataclass
 from typing import Any
 
@@ -23,6 +25,7 @@ import numpy as np
 import pandas as pd
 import pyarrow as pa
 import pyarrow.compute as pc
+import pyarrow.csv as pacsv
 
 from auditmean._records import RecordMixin, format_number, html_table, text_table
 from auditmean.amounts import parse_amounts
@@ -208,13 +211,121 @@ def content_fingerprint(
                 "preassigned_strata", f"must have one label per item id ({len(ids)}), got {len(strata)}"
             )
     order = pc.sort_indices(ids)  # UTF-8 byte order, which is code-point order
-    amounts = [format(v, ".2f") for v in values[order.to_numpy()].tolist()]
-    fields = [ids.take(order), pa.array(["0.00" if a == "-0.00" else a for a in amounts], type=pa.string())]
-    if strata is not None:
-        fields.append(strata.take(order))
-    lines = pc.binary_join_element_wise(*fields, "\t").to_pylist()
-    text = "\n".join(lines) + "\n" if lines else ""
-    return hashlib.sha256(text.encode("utf-8")).hexdigest()
+    h = hashlib.sha256()
+    update_fingerprint(
+        h,
+        ids.take(order),
+        values[order.to_numpy()],
+        None if strata is None else strata.take(order),
+    )
+    return h.hexdigest()
+
+
+def update_fingerprint(
+    h: Any, sorted_ids: pa.Array, sorted_values: np.ndarray, sorted_strata: pa.Array | None = None
+) -> None:
+    """Feed the canonical lines of items already in id order to the hash ``h``.
+
+    The lines are those of :func:`content_fingerprint`; feeding consecutive
+    runs of the sorted items, in order, to one ``hashlib.sha256()`` gives
+    the same digest as :func:`content_fingerprint` on all of them, so a
+    caller that streams a sorted population in batches (the DuckDB scan)
+    needs constant memory. The text is built with vectorised string
+    kernels and hashed without making a Python string per item.
+    """
+    sign, whole, fraction = _amount_parts(np.asarray(sorted_values, dtype=np.float64))
+    if sorted_strata is None:
+        lines = pc.binary_join_element_wise(sorted_ids, sign, whole, ".", fraction, "\n", "")
+    else:
+        lines = pc.binary_join_element_wise(sorted_ids, sign, whole, ".", fraction, "\t", sorted_strata, "\n", "")
+    for chunk in lines.chunks if isinstance(lines, pa.ChunkedArray) else [lines]:
+        h.update(_string_bytes(chunk))
+
+
+def _string_bytes(arr: pa.Array) -> memoryview:
+    """The concatenated UTF-8 bytes of a string array's values (no copy)."""
+    if len(arr) == 0:
+        return memoryview(b"")
+    width = np.int64 if pa.types.is_large_string(arr.type) else np.int32
+    offsets = np.frombuffer(arr.buffers()[1], dtype=width)
+    start, stop = int(offsets[arr.offset]), int(offsets[arr.offset + len(arr)])
+    data = arr.buffers()[2]
+    return memoryview(data)[start:stop] if data is not None else memoryview(b"")
+
+
+# Magnitudes below this are scaled to cents with a product whose rounding
+# error is far below a cent (2**50 / 100, about 1.1e13).
+_CENTS_EXACT_BELOW = 2.0**50 / 100.0
+_TWO_DIGITS = pa.array([f"{i:02d}" for i in range(100)], type=pa.string())
+_TAB_AND_SIGN = pa.array(["\t", "\t-"], type=pa.string())
+
+
+def _amount_parts(values: np.ndarray) -> tuple[pa.Array, pa.Array, pa.Array]:
+    """``format(v, ".2f")`` of every value in three string arrays: TAB and sign, whole units, cents.
+
+    Joined as ``sign + whole + "." + cents`` they are the amounts of the
+    canonical text (``"-0.00"`` written ``"0.00"``), each after a TAB. The
+    cents are ``rint(v * 100)``. The product ``p = fl(100 v)`` differs from
+    the exact ``100 v`` by at most half a unit in the last place, so
+    rounding ``p`` gives the correctly rounded cents (what ``format``
+    gives) except where ``p`` lies within a unit in the last place of a
+    half cent, or the value is too large for that bound to be small. Those
+    values, in practice a handful, are formatted by Python's ``format``.
+    """
+    with np.errstate(over="ignore", invalid="ignore"):  # huge values overflow here; they are formatted below
+        scaled = values * 100.0
+        half_gap = np.abs(np.abs(scaled - np.floor(scaled)) - 0.5)
+        risky = ~(np.abs(values) < _CENTS_EXACT_BELOW) | ~(half_gap > 2.0 * np.spacing(np.abs(scaled)))
+    cents = np.where(risky, 0.0, np.rint(scaled)).astype(np.int64)
+    magnitude = np.abs(cents)
+    sign = _TAB_AND_SIGN.take(pa.array((cents < 0).astype(np.int8)))
+    whole = pc.cast(pa.array(magnitude // 100), pa.string())
+    fraction = _TWO_DIGITS.take(pa.array(magnitude % 100))
+    where = np.flatnonzero(risky)
+    if where.size:
+        exact = [format(v, ".2f") for v in values[where].tolist()]
+        exact = [a[1:] if a == "-0.00" else a for a in exact]
+        mask = pa.array(risky)
+        negative = [a.startswith("-") for a in exact]
+        digits = [a.lstrip("-") for a in exact]
+        sign = pc.replace_with_mask(sign, mask, pa.array(["\t-" if m else "\t" for m in negative], type=pa.string()))
+        whole = pc.replace_with_mask(whole, mask, pa.array([d[:-3] for d in digits], type=pa.string()))
+        fraction = pc.replace_with_mask(fraction, mask, pa.array([d[-2:] for d in digits], type=pa.string()))
+    return sign, whole, fraction
+
+
+def _amount_texts(values: np.ndarray) -> pa.Array:
+    """The amounts of the canonical text alone, as a string array (see :func:`_amount_parts`)."""
+    sign, whole, fraction = _amount_parts(values)
+    return pc.binary_join_element_wise(pc.utf8_slice_codeunits(sign, 1), whole, ".", fraction, "")
+
+
+_PADDED_SORT_WIDTH = 32  # bytes; longer ids are sorted by pyarrow's comparison sort
+
+
+def _id_order(ids: pa.Array) -> np.ndarray:
+    """Positions of the ids in ascending UTF-8 byte order (code-point order), as int64.
+
+    ASCII ids of at most :data:`_PADDED_SORT_WIDTH` bytes are padded with NUL bytes
+    to a multiple of eight and sorted as big-endian 64-bit words, last word
+    first, by stable integer sorts (about twice as fast as a comparison
+    sort of the texts). A NUL byte sorts below every other byte, and ids
+    never hold one (control characters are refused), so a shorter id sorts
+    before every longer id it begins, as in a comparison of the texts.
+    """
+    n = len(ids)
+    if n < 2:
+        return np.arange(n, dtype=np.int64)
+    longest = pc.max(pc.binary_length(ids)).as_py() or 0
+    width = max(8, (longest + 7) // 8 * 8)
+    if longest > _PADDED_SORT_WIDTH or not pc.all(pc.string_is_ascii(ids)).as_py():
+        return pc.sort_indices(ids).to_numpy().astype(np.int64)
+    padded = pc.utf8_rpad(ids, width, "\x00")
+    words = np.frombuffer(_string_bytes(padded), dtype=">u8").reshape(n, width // 8)
+    order = np.argsort(words[:, -1].astype(np.uint64), kind="stable")
+    for j in range(width // 8 - 2, -1, -1):
+        order = order[np.argsort(words[order, j].astype(np.uint64), kind="stable")]
+    return order.astype(np.int64)
 
 
 def _as_text_array(labels: Any, name: str) -> pa.Array:
@@ -337,8 +448,24 @@ def load_population(
     positions = {role: _column_position(header, name, role, where, sep) for role, name in named}
 
     ids = _labels(body[positions["id_column"]], "item id", id_column, where, body)
-    _check_unique(ids, id_column, where)
-    values = parse_amounts(body[positions["value_column"]], decimal=decimal, column=value_column, **where)
+    # The id order serves both the check for repeated ids (neighbours in it)
+    # and the content fingerprint; it is computed once, in a second thread
+    # while the amounts are read (the sort releases the GIL). An error in the
+    # amounts waits until the ids are checked, so repeated ids are still
+    # reported first.
+    with ThreadPoolExecutor(max_workers=1) as pool:
+        sorting = pool.submit(_id_order, ids)
+        amount_error: InputError | None = None
+        try:
+            values = parse_amounts(body[positions["value_column"]], decimal=decimal, column=value_column, **where)
+        except InputError as exc:
+            amount_error = exc
+        order = sorting.result()
+    sorted_ids = ids.take(pa.array(order))
+    if len(sorted_ids) > 1 and pc.any(pc.equal(sorted_ids[1:], sorted_ids[:-1])).as_py():
+        _check_unique(ids, id_column, where)
+    if amount_error is not None:
+        raise amount_error
     columns: dict[str, Any] = {
         "item_id": pd.array(ids, dtype="str"),
         "book_value": values,
@@ -349,6 +476,10 @@ def load_population(
     else:
         strata = None
     items = pd.DataFrame(columns)
+    fingerprint = hashlib.sha256()
+    update_fingerprint(
+        fingerprint, sorted_ids, values[order], None if strata is None else strata.take(pa.array(order))
+    )
     return Population(
         items=items,
         source=source_name,
@@ -356,7 +487,7 @@ def load_population(
         value_column=value_column,
         stratum_column=stratum_column,
         file_sha256=file_sha256,
-        content_sha256=content_fingerprint(ids, values, strata),
+        content_sha256=fingerprint.hexdigest(),
         count=int(values.size),
         total=exact_sum(values),
     )
@@ -414,6 +545,10 @@ def _read_delimited(data: bytes, path: str, *, encoding: str, sep: str) -> pd.Da
         "".encode(encoding)
     except LookupError:
         raise ParameterError("encoding", f"{encoding!r} is not a text encoding Python knows") from None
+    if encoding.replace("-", "").replace("_", "").lower() in ("utf8", "utf8sig"):
+        fast = _read_delimited_fast(data, sep)
+        if fast is not None:
+            return fast
     try:
         return pd.read_csv(
             io.BytesIO(data),
@@ -437,6 +572,38 @@ def _read_delimited(data: bytes, path: str, *, encoding: str, sep: str) -> pd.Da
         if first_line == b"":
             raise InputError(_ROW_ONE_EMPTY, file=path) from None
         raise InputError(f"cannot be read as {sep!r}-separated text: {exc}".rstrip(), file=path) from None
+
+
+def _read_delimited_fast(data: bytes, sep: str) -> pd.DataFrame | None:
+    """The same table as the pandas reader gives, read by pyarrow's parser; None when unsure.
+
+    Every column is read as text, nothing as missing, empty lines kept as
+    rows of empty cells, quoted line breaks allowed: the reading of
+    :func:`_read_delimited`. The number of columns is taken from the first
+    line. Whenever pyarrow refuses the file (a row with another number of
+    fields, text that is not UTF-8, ...) this returns None and the pandas
+    reader reads it, so that its messages stay the ones users see.
+    """
+    head = data[: 1 << 16].decode("utf-8", errors="ignore").lstrip("\ufeff")
+    try:
+        first = next(csv.reader(io.StringIO(head), delimiter=sep))
+    except (StopIteration, csv.Error):
+        return None
+    names = [f"c{j}" for j in range(max(len(first), 1))]
+    try:
+        table = pacsv.read_csv(
+            pa.py_buffer(data),
+            read_options=pacsv.ReadOptions(column_names=names, encoding="utf8"),
+            parse_options=pacsv.ParseOptions(delimiter=sep, newlines_in_values=True, ignore_empty_lines=False),
+            convert_options=pacsv.ConvertOptions(
+                column_types={n: pa.string() for n in names},
+                strings_can_be_null=False,
+                quoted_strings_can_be_null=False,
+            ),
+        )
+    except (pa.ArrowException, ValueError):
+        return None
+    return pd.DataFrame({j: pd.Series(table.column(j), dtype="str") for j in range(len(names))})
 
 
 def _read_excel(data: bytes, path: str, *, sheet: str | int | None) -> pd.DataFrame:
@@ -535,10 +702,10 @@ def _labels(column: pd.Series, what: str, name: str, where: dict[str, str], body
     """Ids or stratum labels as stripped text; InputError on blanks, non-text or control characters."""
     dtype = column.dtype
     n = len(column)
-    out: list[str | None]
+    out: list[str | None] | pa.Array
     not_text: list[int] = []
     if isinstance(dtype, pd.StringDtype):
-        out = [None if v is None else v.strip() for v in column.to_numpy(dtype=object, na_value=None)]
+        out = strip_text(pa.array(column, type=pa.string()))
     elif pd.api.types.is_integer_dtype(dtype) and not pd.api.types.is_bool_dtype(dtype):
         out = [None if v is None else str(int(v)) for v in column.to_numpy(dtype=object, na_value=None)]
     else:
@@ -553,8 +720,11 @@ def _labels(column: pd.Series, what: str, name: str, where: dict[str, str], body
             else:
                 not_text.append(i)
                 out[i] = ""
-    refused = set(not_text)
-    blank = [i for i, v in enumerate(out) if (v is None or v == "") and i not in refused]
+    if isinstance(out, pa.Array):
+        blank = np.flatnonzero(_np_mask(pc.equal(out, ""), null=True)).tolist()
+    else:
+        refused = set(not_text)
+        blank = [i for i, v in enumerate(out) if (v is None or v == "") and i not in refused]
     if blank:
         empty_rows = [i for i in blank[:200] if _row_is_empty(body.iloc[i].tolist())]
         extra = ""
@@ -579,10 +749,12 @@ def _labels(column: pd.Series, what: str, name: str, where: dict[str, str], body
             rows=[spreadsheet_row(i) for i in not_text],
             **where,
         )
-    labels = pa.array(out, type=pa.string())
-    control = np.flatnonzero(
-        pc.fill_null(pc.match_substring_regex(labels, r"[\x00-\x1f\x7f]"), False).to_numpy(zero_copy_only=False)
-    )
+    labels = out if isinstance(out, pa.Array) else pa.array(out, type=pa.string())
+    data = np.frombuffer(_string_bytes(labels), dtype=np.uint8)
+    if np.any((data < 0x20) | (data == 0x7F)):  # only then look for the items that hold them
+        control = np.flatnonzero(_np_mask(pc.match_substring_regex(labels, r"[\x00-\x1f\x7f]"), null=False))
+    else:
+        control = np.empty(0, dtype=np.intp)
     if control.size:
         examples = ", ".join(repr(v) for v in labels.take(pa.array(control[:3])).to_pylist())
         raise InputError(
@@ -593,6 +765,54 @@ def _labels(column: pd.Series, what: str, name: str, where: dict[str, str], body
             **where,
         )
     return labels
+
+
+def _np_mask(mask: pa.Array, *, null: bool) -> np.ndarray:
+    return pc.fill_null(mask, null).to_numpy(zero_copy_only=False).astype(bool)
+
+
+# Bytes that may begin or end a character Python's str.strip() removes: the
+# ASCII white space (tab to carriage return, the separators 0x1c-0x1f,
+# space) and every byte of a multi-byte UTF-8 character (some of which are
+# Unicode spaces: no-break space, en quad, ideographic space ...).
+_MAY_BE_SPACE = np.zeros(256, dtype=bool)
+_MAY_BE_SPACE[[0x09, 0x0A, 0x0B, 0x0C, 0x0D, 0x1C, 0x1D, 0x1E, 0x1F, 0x20]] = True
+_MAY_BE_SPACE[0x80:] = True
+
+
+def strip_text(labels: pa.Array) -> pa.Array:
+    """Each text with surrounding white space removed exactly as Python's :meth:`str.strip` does.
+
+    Vectorised: only the texts whose first or last byte may belong to a
+    white-space character go through :meth:`str.strip` one by one; missing
+    values stay missing.
+    """
+    if isinstance(labels, pa.ChunkedArray):
+        labels = labels.combine_chunks()
+    n = len(labels)
+    if n == 0:
+        return labels
+    width = np.int64 if pa.types.is_large_string(labels.type) else np.int32
+    offsets = np.frombuffer(labels.buffers()[1], dtype=width)[labels.offset : labels.offset + n + 1].astype(np.int64)
+    data = labels.buffers()[2]
+    if data is None:
+        return labels
+    raw = np.frombuffer(data, dtype=np.uint8)
+    filled = offsets[1:] > offsets[:-1]
+    candidates = np.flatnonzero(filled)
+    first = raw[offsets[:-1][candidates]]
+    last = raw[offsets[1:][candidates] - 1]
+    check = candidates[_MAY_BE_SPACE[first] | _MAY_BE_SPACE[last]]
+    if check.size == 0:
+        return labels
+    texts = labels.take(pa.array(check)).to_pylist()
+    stripped = [t.strip() for t in texts]
+    changed = np.array([a != b for a, b in zip(texts, stripped)], dtype=bool)
+    if not changed.any():
+        return labels
+    mask = np.zeros(n, dtype=bool)
+    mask[check[changed]] = True
+    return pc.replace_with_mask(labels, pa.array(mask), pa.array([t for t, c in zip(stripped, changed) if c], type=pa.string()))
 
 
 def _describe_value(i: int, v: Any) -> str:

@@ -46,6 +46,7 @@ from auditmean.errors import InputError, ParameterError, spreadsheet_row
 __all__ = [
     "SEED_ALPHABET",
     "VerificationResult",
+    "compare_selection",
     "extend_selection",
     "item_key",
     "item_keys",
@@ -509,7 +510,16 @@ def verify_selection(
         recorded, recorded but not expected, listed more than once, or
         recorded with another stratum, order or key.
     """
-    expected = select(population, sizes, seed)
+    return compare_selection(select(population, sizes, seed), seed, recorded_selection)
+
+
+def compare_selection(expected: pd.DataFrame, seed: str, recorded_selection: pd.DataFrame) -> VerificationResult:
+    """List every way ``recorded_selection`` differs from ``expected`` (a selection as :func:`select` returns it).
+
+    The comparison of :func:`verify_selection`, for a caller that computed
+    the expected selection another way (for example from a file too large
+    to hold in memory, :func:`auditmean.scan.select_scan`).
+    """
     rec = require_frame(recorded_selection, "recorded_selection")
     require_columns(rec, ["item_id", "stratum"], "recorded_selection")
     rec = rec.reset_index(drop=True)

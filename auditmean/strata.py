@@ -548,7 +548,8 @@ def stratify(
     details: dict[str, Any] = {}
     cuts: np.ndarray = np.empty(0)
     parameters: dict[str, Any] = {
-        "method": method,
+        # recorded so that stratify(population, **parameters) makes the same strata again
+        "method": None if use_preassigned else method,
         "n_strata": n_strata,
         "top_cutoff": top_cutoff,
         "top_items": top_items,
@@ -580,6 +581,7 @@ def stratify(
                     "n_strata", f"is {n_req} but {cuts.size} boundaries make {cuts.size + 1} strata; leave it out"
                 )
             n_req = cuts.size + 1
+            parameters["boundaries"] = [float(c) for c in cuts]
         parameters["n_strata"] = n_req
         if xr.size == 0:
             notes.append("no items are left for the rule once the top, credits and zeros strata are formed")

@@ -34,9 +34,16 @@ from auditmean.engagement import Engagement
 from auditmean.errors import RecordError
 from auditmean.evaluation.conclusion import Evaluation, evaluate
 from auditmean.plan import Plan, plan_sample
-from auditmean.population import Population, load_population
-from auditmean.selection import VerificationResult, propose_seed, select, verify_selection
-from auditmean.strata import Strata, stratify
+from auditmean.population import Population
+from auditmean.scan import (
+    choose_engine,
+    open_population,
+    select_planned,
+    stratify_population,
+    verify_planned,
+)
+from auditmean.selection import VerificationResult, propose_seed
+from auditmean.strata import Strata
 
 __all__ = [
     "PopulationReading",
@@ -58,7 +65,11 @@ COVERAGE_FILE = "coverage.json"
 
 @dataclass(frozen=True)
 class PopulationReading:
-    """How to read a population file: the arguments of :func:`load_population`."""
+    """How to read a population file: the arguments of :func:`auditmean.scan.open_population`.
+
+    ``engine="auto"`` reads a small file in memory and a large one with
+    DuckDB (:func:`auditmean.scan.choose_engine` says which and why).
+    """
 
     source: str
     id_column: str
@@ -67,9 +78,10 @@ class PopulationReading:
     decimal: str = "."
     sep: str | None = None
     sheet: str | int | None = None
+    engine: str = "auto"
 
     def load(self) -> Population:
-        return load_population(
+        return open_population(
             self.source,
             id_column=self.id_column,
             value_column=self.value_column,
@@ -77,6 +89,7 @@ class PopulationReading:
             decimal=self.decimal,
             sep=self.sep,
             sheet=self.sheet,
+            engine=self.engine,
         )
 
     def to_dict(self) -> dict[str, Any]:
@@ -88,12 +101,13 @@ class PopulationReading:
             "decimal": self.decimal,
             "sep": self.sep,
             "sheet": self.sheet,
+            "engine": self.engine,
         }
 
     @classmethod
     def from_dict(cls, d: dict[str, Any]) -> PopulationReading:
         return cls(**{k: d.get(k) for k in ("source", "id_column", "value_column", "stratum_column", "sep", "sheet")},
-                   decimal=d.get("decimal") or ".")
+                   decimal=d.get("decimal") or ".", engine=d.get("engine") or "auto")
 
 
 def start_engagement(
@@ -106,7 +120,7 @@ def start_engagement(
 ) -> tuple[Engagement, Population, Strata, Plan]:
     """Read the population, stratify it, plan the sample, and save all of it in a new engagement."""
     population = population if population is not None else reading.load()
-    strata = stratify(population, **stratify_options)
+    strata = stratify_population(population, **stratify_options)
     plan = plan_sample(strata, **plan_options)
     eng = Engagement.create(folder, population)
     eng.save_plan(
@@ -114,6 +128,8 @@ def start_engagement(
             "schema_version": SCHEMA_VERSION,
             "kind": "engagement_plan",
             "population_reading": reading.to_dict(),
+            "population_engine": {"engine": getattr(population, "engine", "pandas"), "reason": getattr(
+                population, "reason", None) or choose_engine(population.source).reason},
             "strata": strata.to_dict(),
             "plan": plan.to_dict(),
         }
@@ -160,7 +176,7 @@ def engagement_strata(eng: Engagement, population: Population) -> Strata:
     """The strata, recomputed from the population with the recorded arguments and checked."""
     rec = _record(eng)
     params = dict(rec["strata"].get("parameters") or {})
-    strata = stratify(population, **params)
+    strata = stratify_population(population, **params)
     recorded = pd.DataFrame(rec["strata"]["table"])
     same = (
         list(strata.table["stratum"].astype(str)) == [str(s) for s in recorded["stratum"]]
@@ -186,21 +202,19 @@ def draw_selection(eng: Engagement, population: Population, seed: str | None = N
     """Select the planned sample with ``seed`` (a proposed one when not given) and save it."""
     plan = engagement_plan(eng)
     strata = engagement_strata(eng, population)
-    frame = strata.assignment_frame()
     seed = propose_seed() if seed is None else seed
-    selection = select(frame[["item_id", "stratum"]], plan.sizes, seed)
-    eng.save_selection(selection, seed, plan.sizes, frame=frame[["item_id", "stratum"]])
+    selection, frame = select_planned(strata, plan.sizes, seed)
+    eng.save_selection(selection, seed, plan.sizes, frame=frame)
     return eng.selection(), seed
 
 
 def verify_engagement(eng: Engagement, population: Population) -> VerificationResult:
     """Recompute the selection from the population and the recorded seed, and compare."""
     strata = engagement_strata(eng, population)
-    frame = strata.assignment_frame()[["item_id", "stratum"]]
     recorded = eng.selection()
     if recorded is None:
         raise RecordError(str(eng.folder), "no selection has been saved yet")
-    return verify_selection(frame, eng.sizes(), eng.seed(), recorded)
+    return verify_planned(strata, eng.sizes(), eng.seed(), recorded)
 
 
 def evaluate_engagement(

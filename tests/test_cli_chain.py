@@ -9,6 +9,7 @@ from __future__ import annotations
 import hashlib
 import json
 
+import numpy as np
 import pandas as pd
 import pytest
 
@@ -107,3 +108,18 @@ def test_simulate_on_an_engagement_keeps_the_result(tmp_path, ledger_file, capsy
                                MisstatementModel(0.05, FixedTaint(0.3)), replications=300, seed=5,
                                tolerable=50000.0, expected=0.0)
     assert direct.to_dict()["by_estimator"] == saved["by_estimator"]
+
+
+def test_chain_with_preassigned_strata(tmp_path, capsys):
+    # a stock-count style population whose strata are locations given in the file
+    df = ledger(300)
+    df["where"] = np.where(np.arange(300) % 3 == 0, "North bay", "Cold store")
+    path = tmp_path / "stock.csv"
+    df.to_csv(path, index=False)
+    eng_dir = tmp_path / "eng"
+    assert main(["plan", str(path), "--id-column", "doc", "--value-column", "amount", "--stratum-column", "where",
+                 "--strata-rule", "preassigned", "--tolerable", "20000", "--engagement", str(eng_dir)]) == 0
+    assert main(["select", "--engagement", str(eng_dir), "--seed", "s"]) == 0
+    assert main(["verify", "--engagement", str(eng_dir)]) == 0
+    sel = pd.read_csv(eng_dir / "selection.csv", dtype=str)
+    assert set(sel["stratum"]) <= {"North bay", "Cold store"}

@@ -219,3 +219,26 @@ def test_rule_results_are_those_of_the_core():
     s = stratify(df, n_strata=4, top_cutoff=1000.0, n_classes=50)
     rest = df.book_value[(df.book_value > 0) & (df.book_value < 1000.0)].to_numpy()
     assert np.allclose(s.boundaries, bnd.cumulative_sqrt_frequency(rest, 4, 50))
+
+
+@pytest.mark.parametrize(
+    "options",
+    [
+        {"method": "boundaries", "boundaries": [200.0, 800.0], "top_items": 3},
+        {"use_preassigned": True},
+        {"method": "optimal", "n_strata": 3, "tolerable": 20000.0},
+        {"method": "geometric", "n_strata": 3},
+        {"method": "cumulative_sqrt", "n_strata": 3, "top_cutoff": 2000.0},
+    ],
+)
+def test_recorded_parameters_make_the_same_strata_again(options):
+    # the engagement folder replays stratify(population, **strata.parameters) to recover the assignment
+    rng = np.random.default_rng(1)
+    x = np.round(rng.lognormal(6, 1, 500), 2)
+    df = pd.DataFrame(
+        {"item_id": [f"i{i}" for i in range(500)], "book_value": x, "preassigned_stratum": np.where(np.arange(500) % 2, "a", "b")}
+    )
+    first = stratify(df, **options)
+    again = stratify(df, **first.parameters)
+    assert list(again.labels) == list(first.labels)
+    assert np.array_equal(again.codes, first.codes)

@@ -30,7 +30,9 @@ SUBCOMMANDS: tuple[str, ...] = (
     "evaluate",
     "estimate",
     "verify",
+    "report",
     "status",
+    "app",
 )
 
 

@@ -93,13 +93,18 @@ def run(args) -> int:
     data = find_demo_data(args.data)
     folder = Path(args.folder) if args.folder else Path.cwd() / ("auditmean-demo-" + datetime.now(timezone.utc).strftime("%Y%m%d-%H%M%S"))
     eng, population, strata, plan, evaluation = run_demo(folder, data)
+    from auditmean.cli.report import write_both
+
+    written, _wp = write_both(folder, population=population)
     if args.json:
-        print_json({"engagement": str(folder), "plan": plan.to_dict(), "evaluation": evaluation.to_dict()})
+        print_json({"engagement": str(folder), "plan": plan.to_dict(), "evaluation": evaluation.to_dict(),
+                    "workpaper": {k: str(v) for k, v in written.items()}})
         return 0
     print("auditmean demo: invented data (a fictional distributor's 25,000 open invoices)")
     print(f"Engagement folder: {folder}\n")
     print(plan.summary())
     print()
     print(evaluation.summary())
+    print(f"\nWorkpaper: {written['xlsx']}\n           {written['html']}")
     return 0
 

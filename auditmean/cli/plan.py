@@ -12,8 +12,7 @@ from auditmean.cli._common import add_json_flag, print_json
 from auditmean.cli.evaluate import add_risk_options
 from auditmean.errors import InputError
 from auditmean.plan import MisstatementPattern, plan_sample
-from auditmean.population import profile
-from auditmean.strata import stratify
+from auditmean.scan import choose_engine, scan_of, stratify_population
 from auditmean.tables import read_table
 from auditmean.workflow import PopulationReading, start_engagement
 
@@ -144,12 +143,16 @@ def run(args) -> int:
             args.engagement, reading, stratify_options=strat_opts, plan_options=plan_opts, population=population
         )
     else:
-        strata = stratify(population, **strat_opts)
+        strata = stratify_population(population, **strat_opts)
         plan = plan_sample(strata, **plan_opts)
-    prof = profile(population)
+    prof = scan_of(population).profile()
+    engine = {"engine": getattr(population, "engine", "pandas"),
+              "reason": getattr(population, "reason", None) or choose_engine(population.source).reason}
     if args.json:
-        print_json({"profile": prof.to_dict(), "strata": strata.to_dict(), "plan": plan.to_dict(), "engagement": args.engagement})
+        print_json({"profile": prof.to_dict(), "strata": strata.to_dict(), "plan": plan.to_dict(),
+                    "engagement": args.engagement, "population_engine": engine})
         return 0
+    print(f"Population read by {engine['engine']}: {engine['reason']}.")
     print(prof.summary())
     print()
     print(strata.summary())

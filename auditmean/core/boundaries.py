@@ -46,6 +46,7 @@ __all__ = [
     "DEFAULT_CLASSES",
     "assign",
     "cumulative_sqrt_frequency",
+    "cumulative_sqrt_from_histogram",
     "geometric",
     "equal_value",
     "StratumStatistics",
@@ -105,6 +106,22 @@ def cumulative_sqrt_frequency(
     if lo == hi:
         return np.empty(0)
     freq, edges = np.histogram(x, bins=int(n_classes), range=(lo, hi))
+    return cumulative_sqrt_from_histogram(freq, edges, n_strata)
+
+
+def cumulative_sqrt_from_histogram(freq: np.ndarray, edges: np.ndarray, n_strata: int) -> np.ndarray:
+    """The cumulative square-root-of-frequency cuts from the class counts ``freq`` and ``edges``.
+
+    The second half of :func:`cumulative_sqrt_frequency` (same rule, same
+    source), for a caller that counted the classes itself, for example in a
+    database query over a file too large to hold in memory. ``edges`` has
+    one more entry than ``freq``; class ``j`` holds the values ``x`` with
+    ``edges[j] <= x < edges[j + 1]`` (the last class closed).
+    """
+    freq = np.asarray(freq)
+    edges = np.asarray(edges, dtype=float)
+    if n_strata < 2 or freq.size == 0:
+        return np.empty(0)
     cum = np.cumsum(np.sqrt(freq))
     cand = np.flatnonzero(freq[:-1] > 0)  # upper edge of class j is edges[j + 1]
     if cand.size == 0:

@@ -19,6 +19,7 @@ __all__ = [
     "centred_cross_sums",
     "sample_skewness",
     "skewness_from_sums",
+    "skewness_of_spread",
 ]
 
 
@@ -83,10 +84,18 @@ def sample_skewness(codes: np.ndarray, n_strata: int, values: np.ndarray) -> np.
     d = values - mean[codes]
     m2 = np.bincount(codes, weights=d * d, minlength=n_strata)
     m3 = np.bincount(codes, weights=d * d * d, minlength=n_strata)
-    # Values equal to within floating rounding of their own size have no
-    # skewness worth reporting; without this, noise of 1e-16 gives a G1 of O(1).
     scale = np.bincount(codes, weights=values * values, minlength=n_strata)
-    tiny = m2 <= (1e-24 * scale)
-    m2 = np.where(tiny, 0.0, m2)
-    m3 = np.where(tiny, 0.0, m3)
-    return skewness_from_sums(n, m2, m3)
+    return skewness_of_spread(n, m2, m3, scale)
+
+
+def skewness_of_spread(n: np.ndarray, m2_sum: np.ndarray, m3_sum: np.ndarray, square_sum: np.ndarray) -> np.ndarray:
+    """G1 from centred sums of squares and cubes, zero where the spread is only rounding.
+
+    ``square_sum`` is the sum of the squared values themselves. Values
+    equal to within floating rounding of their own size (``m2_sum <= 1e-24
+    square_sum``, our own threshold) have no skewness worth reporting;
+    without this, noise of 1e-16 gives a G1 of order 1. Otherwise as
+    :func:`skewness_from_sums`.
+    """
+    tiny = m2_sum <= (1e-24 * square_sum)
+    return skewness_from_sums(n, np.where(tiny, 0.0, m2_sum), np.where(tiny, 0.0, m3_sum))

@@ -1,0 +1,372 @@
+"""The panels driven without a browser: set values, click, read, and compare with the engine.
+
+Every number a panel shows must be the engine's: each check below calls
+the same auditmean function directly, on the same inputs, and compares
+(source of every expected value: the engine's public function named beside
+the check). The population is invented here, from a fixed seed; the demo
+data is not used for any asserted number.
+"""
+
+from __future__ import annotations
+
+import json
+import os
+from datetime import datetime, timezone
+
+os.environ.setdefault("PLOTLY_RENDERER", "plotly_mimetype")
+
+import numpy as np
+import pandas as pd
+import pytest
+
+from auditmean._records import format_number
+from auditmean.cautions import CAUTIONS
+from auditmean.coverage import FixedTaint, MisstatementModel, simulate_coverage
+from auditmean.engagement import Engagement
+from auditmean.plan import MisstatementPattern, plan_sample
+from auditmean.population import load_population, profile
+from auditmean.selection import select
+from auditmean.strata import stratify
+from auditmean.widgets import (
+    App,
+    CoveragePanel,
+    EngagementState,
+    EvaluationPanel,
+    PlanPanel,
+    PopulationPanel,
+    ResultsPanel,
+    SelectionPanel,
+    StrataPanel,
+    WorkpaperPanel,
+    figures,
+)
+from auditmean.widgets.app import STEP_TITLES
+from auditmean.workflow import evaluate_engagement
+
+STRATIFY = {"method": "cumulative_sqrt", "n_strata": 3, "top_cutoff": 5_000.0}
+PLAN = {
+    "tolerable": 60_000.0,
+    "expected": 10_000.0,
+    "risk_incorrect_acceptance": 0.05,
+    "risk_incorrect_rejection": 0.20,
+    "method": "ratio",
+    "std_dev_source": MisstatementPattern(0.05, 0.2),
+    "minimum": 10,
+}
+SEED = "widget-test-seed"
+
+
+@pytest.fixture(scope="module")
+def ledger(tmp_path_factory) -> tuple:
+    """An invented ledger of 2,000 items (seeded) and the 'true' audited value of each."""
+    rng = np.random.default_rng(20240607)
+    n = 2_000
+    book = np.round(rng.lognormal(5.5, 1.0, n), 2)
+    book[:20] = -np.round(rng.uniform(5, 200, 20), 2)  # credits
+    book[20:30] = 0.0  # zero balances
+    book[30:36] = [6_000.0, 7_500.5, 9_999.99, 12_000.0, 15_500.0, 8_250.25]  # large items
+    ids = [f"A-{i:05d}" for i in range(n)]
+    wrong = rng.random(n) < 0.05
+    audited = np.where(wrong, np.round(book * 0.8, 2), book)
+    folder = tmp_path_factory.mktemp("ledger")
+    path = folder / "ledger.csv"
+    pd.DataFrame({"item": ids, "amount": [f"{v:.2f}" for v in book]}).to_csv(path, index=False)
+    truth = dict(zip(ids, audited))
+    return path, truth
+
+
+def _population_panel(state, ledger_path):
+    panel = PopulationPanel(state, source=ledger_path, id_column="item", value_column="amount")
+    panel.read_button.click()
+    assert panel.message.value == "", panel.message.value
+    return panel
+
+
+def _planned(tmp_path, ledger_path):
+    state = EngagementState()
+    pop = _population_panel(state, ledger_path)
+    strata = StrataPanel(state, **STRATIFY)
+    plan = PlanPanel(state, **PLAN, folder=tmp_path / "engagement")
+    return state, pop, strata, plan
+
+
+def _selected(tmp_path, ledger_path):
+    state, pop, strata, plan = _planned(tmp_path, ledger_path)
+    plan.save_button.click()
+    assert plan.message.value == "", plan.message.value
+    sel = SelectionPanel(state, seed=SEED)
+    sel.draw_button.click()
+    sel.wait(60)
+    assert sel.message.value == "", sel.message.value
+    return state, plan, sel
+
+
+def _all_entered(tmp_path, ledger):
+    path, truth = ledger
+    state, plan, sel = _selected(tmp_path, path)
+    results = ResultsPanel(state, entered_by="tester")
+    frame = pd.DataFrame({"item_id": state.selection["item_id"],
+                          "audited_value": [f"{truth[i]:.2f}" for i in state.selection["item_id"]]})
+    found = tmp_path / "found.csv"
+    frame.to_csv(found, index=False)
+    results.record_file(found, id_column="item_id", value_column="audited_value")
+    assert "am-error" not in results.message.value, results.message.value
+    return state, results
+
+
+# --------------------------------------------------------------------------- the state
+
+
+def test_state_clears_what_was_computed_from_a_changed_value():
+    seen = []
+    state = EngagementState(population="P", strata="S", plan="L", evaluation="E", coverage="C")
+    state.observe(lambda ch: seen.append(ch.names), names=("plan", "coverage"))
+    changed = state.update(strata="S2")
+    # strata clears plan, coverage and evaluation (the chain in auditmean.widgets.state.CLEARS)
+    assert changed == {"strata", "plan", "coverage", "evaluation"}
+    assert state.population == "P" and state.plan is None and state.evaluation is None
+    assert seen == [changed]  # one notification per update
+    # values given together are kept together
+    state.update(strata="S3", plan="L3")
+    assert state.strata == "S3" and state.plan == "L3"
+    with pytest.raises(AttributeError):
+        state.plan = "direct"  # must go through update() so the panels are told
+
+
+# --------------------------------------------------------------------------- population, strata, plan
+
+
+def test_population_panel_reads_and_profiles_like_the_engine(ledger):
+    path, _ = ledger
+    state = EngagementState()
+    panel = _population_panel(state, path)
+    direct = load_population(str(path), id_column="item", value_column="amount")
+    # source: load_population called directly on the same file
+    assert state.population.content_sha256 == direct.content_sha256
+    assert state.population.total == direct.total
+    prof = profile(direct)
+    assert state.profile.skewness == prof.skewness
+    assert format_number(prof.total) in panel.profile_html.value
+    # the picture's bins: numpy's histogram of the positive values on the same edges
+    fig = panel.figure.figure
+    counts = np.histogram(direct.book_values[direct.book_values > 0], bins=np.asarray(fig.data[0].x))[0]
+    assert list(fig.data[0].y[:-1]) == counts.tolist()
+
+
+def test_population_panel_shows_a_missing_file_as_a_message(tmp_path):
+    state = EngagementState()
+    panel = PopulationPanel(state)
+    panel.source.value = str(tmp_path / "nothere.csv")
+    assert "am-error" in panel.message.value and "no such file" in panel.message.value
+    assert "Traceback" not in panel.message.value
+    panel.read_button.click()
+    assert state.population is None
+
+
+def test_strata_panel_stratifies_like_the_engine(ledger):
+    path, _ = ledger
+    state = EngagementState()
+    _population_panel(state, path)
+    panel = StrataPanel(state, **STRATIFY)
+    direct = stratify(load_population(str(path), id_column="item", value_column="amount"), **STRATIFY)
+    # source: stratify called directly with the same arguments
+    pd.testing.assert_frame_equal(state.strata.table, direct.table)
+    panel.n_strata.value = 4
+    again = stratify(state.population, **{**STRATIFY, "n_strata": 4})
+    pd.testing.assert_frame_equal(state.strata.table, again.table)
+    # the boundary lines of the picture are at the engine's boundaries
+    xs = [x for x in panel.distribution.figure.data[1].x if x is not None]
+    assert sorted(set(xs)) == sorted(b for b in again.boundaries if b > 0)
+
+
+def test_plan_panel_replans_and_redraws_in_place(tmp_path, ledger):
+    path, _ = ledger
+    state, _pop, _strata, panel = _planned(tmp_path, path)
+    fw = panel.figure
+    direct = plan_sample(state.strata, **PLAN)
+    # source: plan_sample called directly on the same strata
+    assert state.plan.sizes == direct.sizes
+    assert state.plan.total_size == direct.total_size
+    panel.tolerable.value = 45_000.0
+    direct2 = plan_sample(state.strata, **{**PLAN, "tolerable": 45_000.0})
+    assert state.plan.sizes == direct2.sizes
+    assert panel.figure is fw  # the same FigureWidget, changed in place
+    shown = [a if a is not None else b for a, b in zip(fw.data[0].y, fw.data[1].y)]
+    assert shown == direct2.table["size"].tolist()
+    assert f"<b>{direct2.total_size:,}</b>" in panel.headline.value
+
+
+def test_plan_panel_shows_a_bad_input_as_a_message(tmp_path, ledger):
+    path, _ = ledger
+    state, _pop, _strata, panel = _planned(tmp_path, path)
+    panel.expected.value = 100_000.0  # above the tolerable misstatement
+    assert "am-error" in panel.message.value and "tolerable" in panel.message.value
+    assert state.plan is None
+    panel.method.value = "mpu"
+    panel.source.value = "book"
+    panel.expected.value = 10_000.0
+    assert panel.message.value == ""
+    # source: plan_sample directly with mean-per-unit on the book values
+    assert state.plan.sizes == plan_sample(state.strata, **{**PLAN, "method": "mpu", "std_dev_source": "book"}).sizes
+
+
+# --------------------------------------------------------------------------- the engagement
+
+
+def test_save_plan_and_draw_selection_record_what_the_engine_gives(tmp_path, ledger):
+    path, _ = ledger
+    state, plan_panel, panel = _selected(tmp_path, path)
+    folder = tmp_path / "engagement"
+    saved = Engagement.open(folder).plan()
+    # the saved plan is the plan shown (its JSON record)
+    assert saved["plan"]["total_size"] == state.plan.total_size
+    assert saved["plan"]["table"] == json.loads(json.dumps(state.plan.to_dict()["table"]))
+    # source: select() on the strata's items with the plan's sizes and the same seed
+    frame = state.strata.assignment_frame()[["item_id", "stratum"]]
+    direct = select(frame, state.plan.sizes, SEED)
+    assert sorted(state.selection["item_id"]) == sorted(direct["item_id"])
+    assert Engagement.open(folder).seed() == SEED
+    assert "am-selection-done" in panel.selection_html.value
+    panel.verify_button.click()
+    assert "am-note" in panel.verify_html.value  # re-performed and matching
+    assert plan_panel.tolerable.disabled  # the plan can no longer change
+
+
+def test_every_typed_value_is_on_disk_at_once(tmp_path, ledger):
+    path, _ = ledger
+    state, _plan, _sel = _selected(tmp_path, path)
+    panel = ResultsPanel(state, entered_by="tester")
+    folder = tmp_path / "engagement"
+    first, second = panel._page_items[0], panel._page_items[1]
+    panel.rows[0].note.value = "agreed to the invoice"
+    panel.rows[0].value.value = "1,234.50"
+    # a fresh handle on the folder, as after a killed kernel: the value is there
+    assert Engagement.open(folder).results().value_of(first) == 1234.50
+    panel.rows[1].value.value = "99"
+    panel.rows[1].value.value = "98.75"  # a correction: replaces, the earlier value stays in the log
+    res = Engagement.open(folder).results()
+    assert res.value_of(second) == 98.75
+    assert res.log.loc[res.log["item_id"] == second, "action"].tolist() == ["new", "replace"]
+    assert res.current.set_index("item_id").at[first, "note"] == "agreed to the invoice"
+    assert "<b>2</b> of" in panel.counts_html.value
+    # a value that cannot be read: a message in the panel, nothing recorded
+    panel.rows[2].value.value = "twelve"
+    assert "am-error" in panel.message.value and "not saved" in panel.rows[2].status.value
+    assert len(Engagement.open(folder).results().log) == 3
+    # reopening the folder in a new state shows the same entries
+    resumed = EngagementState.from_folder(folder)
+    again = ResultsPanel(resumed)
+    assert "<b>2</b> of" in again.counts_html.value
+
+
+def test_an_uploaded_results_file_is_kept_in_the_folder_and_recorded(tmp_path, ledger):
+    path, truth = ledger
+    state, _plan, _sel = _selected(tmp_path, path)
+    panel = ResultsPanel(state)
+    ids = list(state.selection["item_id"])
+    text = "item,value,comment\n" + "".join(f"{i},{truth[i]:.2f},ok\n" for i in ids)
+    panel.upload.value = ({"name": "found.csv", "type": "text/csv", "size": len(text),
+                           "content": memoryview(text.encode()),
+                           "last_modified": datetime(2024, 12, 31, tzinfo=timezone.utc)},)
+    kept = tmp_path / "engagement" / "uploads" / "found.csv"
+    assert kept.read_text() == text
+    assert (panel.file_id.value, panel.file_value.value, panel.file_note.value) == ("item", "value", "comment")
+    panel.file_button.click()
+    res = Engagement.open(tmp_path / "engagement").results()
+    assert len(res.current) == len(ids)
+    assert res.value_of(ids[0]) == round(truth[ids[0]], 2)
+
+
+def test_evaluation_panel_shows_the_engines_conclusion(tmp_path, ledger):
+    state, _results = _all_entered(tmp_path, ledger)
+    panel = EvaluationPanel(state, bootstrap_replicates=400)
+    eng = state.engagement
+    before = len(eng.evaluations())
+    panel.evaluate_button.click()
+    panel.wait(120)
+    assert "am-error" not in panel.message.value, panel.message.value
+    # source: evaluate_engagement called directly with the same options
+    direct = evaluate_engagement(eng, bootstrap_replicates=400, save=False)
+    ev = state.evaluation
+    assert ev.primary == direct.primary
+    for m, c in direct.conclusions.items():
+        assert ev.conclusions[m].upper_limit == c.upper_limit
+        assert ev.conclusions[m].verdict == c.verdict
+        assert format_number(c.upper_limit) in panel.result_html.value
+    assert len(eng.evaluations()) == before + 1  # saved in the folder
+    fig = panel.figure.figure
+    xs = [x for x in fig.data[0].x if x is not None]
+    assert xs[:2] == [direct.conclusions[list(direct.conclusions)[0]].lower_limit,
+                      direct.conclusions[list(direct.conclusions)[0]].upper_limit]
+    for caution in CAUTIONS:
+        assert caution.replace("'", "&#x27;") in panel.result_html.value
+
+
+def test_coverage_panel_runs_the_engine_and_can_be_stopped(tmp_path, ledger):
+    path, _ = ledger
+    state, _pop, _strata, _plan = _planned(tmp_path, path)
+    panel = CoveragePanel(state, replications=300, seed=11)
+    panel.estimators.value = ("ratio", "mpu")
+    panel.run_button.click()
+    panel.wait(120)
+    assert "am-error" not in panel.message.value, panel.message.value
+    labels = np.asarray(state.strata.labels, dtype=object)[state.strata.codes]
+    model = MisstatementModel(error_rate=0.05, taint=FixedTaint(0.2))
+    # source: simulate_coverage called directly with the same design, model and seed
+    direct = simulate_coverage(state.strata.book_values, labels, state.plan.sizes, model,
+                               estimators=["ratio", "mpu"], replications=300, seed=11,
+                               tolerable=state.plan.tolerable, expected=state.plan.expected)
+    pd.testing.assert_frame_equal(state.coverage.by_estimator, direct.by_estimator)
+    # Stop: the run ends after the batch under way, and what was done is reported as partial
+    panel.replications.value = 100_000
+    panel.fixed.value = True
+    panel.run_button.click()
+    panel.task.stop_button.click()
+    panel.wait(300)
+    assert state.coverage.partial
+    assert state.coverage.replications < 100_000
+    assert "Stopped early" in panel.result_html.value
+
+
+def test_workpaper_panel_writes_both_files(tmp_path, ledger):
+    state, _results = _all_entered(tmp_path, ledger)
+    ev = EvaluationPanel(state, bootstrap_replicates=200)
+    ev.evaluate_button.click()
+    ev.wait(120)
+    panel = WorkpaperPanel(state, purpose="test of the widgets")
+    panel.write_button.click()
+    panel.wait(300)
+    assert "am-error" not in panel.message.value, panel.message.value
+    assert panel.written["xlsx"].stat().st_size > 0
+    assert panel.written["html"].read_text(encoding="utf-8").count("test of the widgets") >= 1
+
+
+def test_app_has_every_step_and_shows_the_cautions():
+    app = App()
+    assert tuple(app.tabs.titles) == STEP_TITLES
+    assert len(app.tabs.children) == len(STEP_TITLES)
+    for caution in CAUTIONS:
+        assert caution.replace("'", "&#x27;") in app.cautions.value
+    assert "Next:" in app.status.value
+
+
+# --------------------------------------------------------------------------- the pictures
+
+
+def test_allocation_picture_shows_the_plans_sizes(ledger):
+    path, _ = ledger
+    pop = load_population(str(path), id_column="item", value_column="amount")
+    plan = plan_sample(stratify(pop, **STRATIFY), **PLAN)
+    fig = figures.allocation(plan)
+    shown = [a if a is not None else b for a, b in zip(fig.data[0].y, fig.data[1].y)]
+    assert shown == plan.table["size"].tolist()  # source: Plan.table
+    assert [str(s) for s in fig.data[0].x] == [str(s) for s in plan.table["stratum"]]
+
+
+def test_book_value_bins_count_every_positive_item():
+    values = np.array([-5.0, 0.0, 0.0, 1.0, 10.0, 100.0, 1000.0])
+    bins = figures.book_value_bins(values, bins=3)
+    # arithmetic: 4 positive items, one credit, two zeros; edges 1, 10, 100, 1000 (log-spaced)
+    assert bins.counts.sum() == 4 and bins.credits == 1 and bins.zeros == 2
+    np.testing.assert_allclose(bins.edges, [1.0, 10.0, 100.0, 1000.0])
+    assert bins.counts.tolist() == [1, 1, 2]  # numpy's last bin includes its upper edge
