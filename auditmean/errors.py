@@ -14,6 +14,7 @@ __all__ = [
     "ParameterError",
     "MethodNotApplicable",
     "RecordError",
+    "Stopped",
     "spreadsheet_row",
 ]
 
@@ -114,3 +115,11 @@ class RecordError(AuditMeanError):
         self.path = str(path)
         self.reason = message
         super().__init__(f"{self.path}: {message}")
+
+
+class Stopped(AuditMeanError):
+    """Long work was stopped by the user before its result was saved; nothing was written."""
+
+    def __init__(self, what: str) -> None:
+        self.what = what
+        super().__init__(f"{what} stopped by the user; nothing was saved")

@@ -22,6 +22,7 @@ from __future__ import annotations
 
 import math
 import os
+from collections.abc import Callable
 from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
@@ -31,7 +32,7 @@ import pandas as pd
 
 from auditmean._records import SCHEMA_VERSION
 from auditmean.engagement import Engagement
-from auditmean.errors import RecordError
+from auditmean.errors import RecordError, Stopped
 from auditmean.evaluation.conclusion import Evaluation, evaluate
 from auditmean.plan import Plan, plan_sample
 from auditmean.population import Population
@@ -198,12 +199,30 @@ def strata_table(plan: Plan) -> pd.DataFrame:
     return pd.DataFrame({"stratum": t["stratum"].astype(str), "count": t["count"], "book_total": t["book_total"]})
 
 
-def draw_selection(eng: Engagement, population: Population, seed: str | None = None) -> tuple[pd.DataFrame, str]:
-    """Select the planned sample with ``seed`` (a proposed one when not given) and save it."""
+def _check_proceed(proceed: Callable[[], bool] | None, what: str) -> None:
+    if proceed is not None and proceed() is False:
+        raise Stopped(what)
+
+
+def draw_selection(
+    eng: Engagement,
+    population: Population,
+    seed: str | None = None,
+    *,
+    proceed: Callable[[], bool] | None = None,
+) -> tuple[pd.DataFrame, str]:
+    """Select the planned sample with ``seed`` (a proposed one when not given) and save it.
+
+    ``proceed()`` (optional) is asked between the steps and just before
+    saving; when it returns False the work ends with
+    :class:`~auditmean.errors.Stopped` and nothing is saved.
+    """
     plan = engagement_plan(eng)
     strata = engagement_strata(eng, population)
+    _check_proceed(proceed, "the selection")
     seed = propose_seed() if seed is None else seed
     selection, frame = select_planned(strata, plan.sizes, seed)
+    _check_proceed(proceed, "the selection")
     eng.save_selection(selection, seed, plan.sizes, frame=frame)
     return eng.selection(), seed
 
@@ -224,9 +243,14 @@ def evaluate_engagement(
     primary: str | None = None,
     seed: int | str | None = None,
     save: bool = True,
+    proceed: Callable[[], bool] | None = None,
     **options: Any,
 ) -> Evaluation:
     """Evaluate the recorded results with the plan's tolerable misstatement and risks.
+
+    ``proceed()`` (optional) is asked before the evaluation and before it is
+    saved; when it returns False the work ends with
+    :class:`~auditmean.errors.Stopped` and nothing is saved.
 
     ``missing_treatment`` says what to do with selected items that have no
     audited value yet (see :func:`auditmean.results.sample_frame`); the
@@ -236,6 +260,7 @@ def evaluate_engagement(
     """
     plan = engagement_plan(eng)
     frame = eng.sample_frame(missing_treatment=missing_treatment)
+    _check_proceed(proceed, "the evaluation")
     sample = frame.frame[["stratum", "item_id", "book_value", "audited_value"]].copy()
     sample["stratum"] = sample["stratum"].astype(str)
     if primary is None:
@@ -252,6 +277,7 @@ def evaluate_engagement(
         seed=eng.seed() if seed is None else seed,
         **options,
     )
+    _check_proceed(proceed, "the evaluation")
     if save:
         d = ev.to_dict()
         d["missing_treatment"] = frame.missing_treatment

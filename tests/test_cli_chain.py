@@ -123,3 +123,16 @@ def test_chain_with_preassigned_strata(tmp_path, capsys):
     assert main(["verify", "--engagement", str(eng_dir)]) == 0
     sel = pd.read_csv(eng_dir / "selection.csv", dtype=str)
     assert set(sel["stratum"]) <= {"North bay", "Cold store"}
+
+
+def test_stopping_before_saving_leaves_the_record_as_it_was(tmp_path, ledger_file):
+    from auditmean.errors import Stopped
+    from auditmean.workflow import draw_selection
+
+    eng_dir = tmp_path / "eng"
+    assert main(["plan", str(ledger_file), "--id-column", "doc", "--value-column", "amount", "--tolerable", "50000",
+                 "--strata", "3", "--engagement", str(eng_dir)]) == 0
+    eng, pop = open_engagement(eng_dir)
+    with pytest.raises(Stopped, match="nothing was saved"):
+        draw_selection(eng, pop, seed="s", proceed=lambda: False)
+    assert eng.selection() is None and not (eng_dir / "selection.json").exists()

@@ -370,3 +370,32 @@ def test_book_value_bins_count_every_positive_item():
     assert bins.counts.sum() == 4 and bins.credits == 1 and bins.zeros == 2
     np.testing.assert_allclose(bins.edges, [1.0, 10.0, 100.0, 1000.0])
     assert bins.counts.tolist() == [1, 1, 2]  # numpy's last bin includes its upper edge
+
+
+def test_selection_can_be_stopped_and_nothing_is_recorded(tmp_path, ledger, monkeypatch):
+    import auditmean.widgets.selection as selection_module
+    from auditmean.workflow import draw_selection as real_draw
+
+    path, _truth = ledger
+    state, pop, strata, plan = _planned(tmp_path, path)
+    plan.save_button.click()
+    sel = SelectionPanel(state, seed=SEED)
+
+    def pressed_stop_meanwhile(eng, population, seed=None, *, proceed=None):
+        sel.task.stop()  # the user presses Stop while the keys are being computed
+        return real_draw(eng, population, seed=seed, proceed=proceed)
+
+    monkeypatch.setattr(selection_module, "draw_selection", pressed_stop_meanwhile)
+    sel.draw_button.click()
+    sel.wait(60)
+    assert state.selection is None and state.engagement.selection() is None
+    assert "Stopped" in sel.message.value
+    # drawing again, without Stop, records it
+    monkeypatch.setattr(selection_module, "draw_selection", real_draw)
+    sel.draw_button.click()
+    sel.wait(60)
+    assert state.selection is not None and len(state.engagement.selection()) == plan_total(state)
+
+
+def plan_total(state):
+    return int(state.plan.total_size)

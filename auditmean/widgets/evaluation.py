@@ -11,7 +11,7 @@ import ipywidgets as widgets
 from auditmean._records import format_number, html_table
 from auditmean.cautions import CAUTIONS
 from auditmean.core.estimators import METHOD_NAMES
-from auditmean.errors import InputError
+from auditmean.errors import InputError, Stopped
 from auditmean.widgets import figures
 from auditmean.widgets._base import FigureView, Panel, Task, box
 from auditmean.widgets.state import EngagementState, StateChange
@@ -117,7 +117,7 @@ class EvaluationPanel(Panel):
         self.evaluate_button = widgets.Button(description="Evaluate", button_style="primary", icon="balance-scale",
                                               layout=widgets.Layout(width="14em"))
         self.evaluate_button.add_class("am-evaluate")
-        self.task = Task(self, stoppable=False)
+        self.task = Task(self, stoppable=True)
         self.status_html = widgets.HTML("")
         self.result_html = widgets.HTML("")
         self.figure = FigureView()
@@ -147,6 +147,14 @@ class EvaluationPanel(Panel):
             "bootstrap_replicates": int(self.replicates.value),
         }
 
+    @staticmethod
+    def _evaluate_or_stop(eng: Any, options: dict, report: Any) -> Any:
+        """The evaluation, or None when Stop was pressed before it was saved (nothing saved then)."""
+        try:
+            return evaluate_engagement(eng, proceed=lambda: report(0, 1), **options)
+        except Stopped:
+            return None
+
     def evaluate(self) -> None:
         """Evaluate and save in the background (see :meth:`wait`); the result goes into the state."""
         self.clear_message()
@@ -159,8 +167,9 @@ class EvaluationPanel(Panel):
         replicates = options["bootstrap_replicates"]
         self.task.start(
             f"Evaluating (the second opinion draws {replicates:,} bootstrap replicates)",
-            lambda report: evaluate_engagement(eng, **options),
-            lambda ev: state.update(evaluation=ev),
+            lambda report: self._evaluate_or_stop(eng, options, report),
+            lambda ev: state.update(evaluation=ev) if ev is not None
+            else self.show_note("Stopped: no evaluation was saved; evaluate again when ready.", "warning"),
             after=lambda: self._show(self.state),
         )
 

@@ -8,7 +8,7 @@ from typing import Any
 import ipywidgets as widgets
 
 from auditmean._records import format_number, html_table
-from auditmean.errors import InputError
+from auditmean.errors import InputError, Stopped
 from auditmean.selection import propose_seed
 from auditmean.widgets._base import Panel, Task, box
 from auditmean.widgets.state import EngagementState, StateChange
@@ -57,7 +57,7 @@ class SelectionPanel(Panel):
         self.selection_html = widgets.HTML("")
         self.selection_html.add_class("am-table")
         self.verify_html = widgets.HTML("")
-        self.task = Task(self, stoppable=False)
+        self.task = Task(self, stoppable=True)
         self.propose_button.on_click(self._handler(lambda _b: setattr(self.seed, "value", propose_seed())))
         self.draw_button.on_click(self._handler(lambda _b: self.draw()))
         self.verify_button.on_click(self._handler(lambda _b: self.verify()))
@@ -89,11 +89,17 @@ class SelectionPanel(Panel):
         self.draw_button.disabled = True
 
         def work(report: Any) -> Any:
-            selection, used = draw_selection(eng, population, seed=seed)
+            try:
+                selection, used = draw_selection(eng, population, seed=seed, proceed=lambda: report(0, 1))
+            except Stopped:
+                return None
             report(1, 1)
             return selection, used
 
         def done(result: Any) -> None:
+            if result is None:
+                self.show_note("Stopped: no selection was recorded; draw again when ready.", "warning")
+                return
             selection, _used = result
             state.update(selection=selection, results=eng.results())
 
