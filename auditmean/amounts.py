@@ -266,7 +266,7 @@ def _all_plain_numbers(series: pd.Series) -> np.ndarray | None:
         return None
     try:
         values = pc.cast(texts, pa.float64()).to_numpy(zero_copy_only=False)
-    except (pa.ArrowInvalid, pa.ArrowNotImplementedError):
+    except pa.ArrowException:  # not all plain numbers (or a cast pyarrow lacks): the slow path says why
         return None
     if not np.all(np.isfinite(values)):
         return None
