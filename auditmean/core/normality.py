@@ -25,6 +25,8 @@ import numpy as np
 
 __all__ = [
     "RULE_OF_THUMB_ITEMS",
+    "OVERALL_SKEWNESS_LIMIT",
+    "FEW_DIFFERENCES",
     "cochran_minimum",
     "sugden_minimum",
     "smallest_size_above",
@@ -36,6 +38,15 @@ __all__ = [
 #: Fewest items a stratum's sample should hold: a rule of thumb, common
 #: practice, no published source.
 RULE_OF_THUMB_ITEMS = 30
+
+#: Skewness of a whole estimator above which its normal interval is
+#: doubtful: Cochran's n > 25 G1^2 rewritten as G1 / sqrt(n) < 0.2 (Cochran
+#: 1977, section 2.15), applied to the stratified estimator.
+OVERALL_SKEWNESS_LIMIT = 0.2
+
+#: Fewest non-zero differences for difference and ratio intervals: common
+#: audit practice, quoted from memory, no single published source.
+FEW_DIFFERENCES = 20
 
 
 def cochran_minimum(g1: np.ndarray | float) -> np.ndarray:

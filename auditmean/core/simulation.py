@@ -103,7 +103,13 @@ from scipy import stats
 from auditmean.core.bootstrap import percentile_limits, rescaling_bootstrap
 from auditmean.core.estimators import METHODS, minimum_items_for_variance
 from auditmean.core.misstatement import draw_taints, error_positions
-from auditmean.core.normality import fails_cochran, fails_rule_of_thumb, fails_sugden
+from auditmean.core.normality import (
+    FEW_DIFFERENCES,
+    OVERALL_SKEWNESS_LIMIT,
+    fails_cochran,
+    fails_rule_of_thumb,
+    fails_sugden,
+)
 
 __all__ = [
     "STRATUM_FLAGS",
@@ -137,12 +143,8 @@ STRATUM_FLAGS = (
 #: Flags about the estimate as a whole.
 ESTIMATE_FLAGS = ("skew-overall", "few-differences", "interval-unusable")
 
-#: Skewness of the whole estimator from which its normal interval is doubted,
-#: and fewest non-zero differences: the evaluation's thresholds
-#: (auditmean.evaluation.flags.OVERALL_SKEWNESS_LIMIT and FEW_DIFFERENCES,
-#: repeated here because core imports nothing above it).
-OVERALL_SKEWNESS_LIMIT = 0.2
-FEW_DIFFERENCES = 20
+# OVERALL_SKEWNESS_LIMIT and FEW_DIFFERENCES come from core.normality, the
+# one place the evaluation's flags and the simulation take them from.
 
 #: Replications drawn from one generator (see the module docstring).
 CHUNK = 256

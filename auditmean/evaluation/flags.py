@@ -13,6 +13,7 @@ import numpy as np
 import pandas as pd
 
 from auditmean.core import estimators as est
+from auditmean.core import normality as _normality
 from auditmean.core.flags import Flag
 
 __all__ = ["structural_flags"]
@@ -159,12 +160,10 @@ _OVERALL_SOURCE = (
     "third moments (third moment of a mean without replacement: mu3 (N - n)(N - 2n) / "
     "(n^2 (N - 1)(N - 2)), Cochran 1977, section 2.15, quoted from memory)"
 )
-#: Skewness of an estimator above which its normal interval is doubtful
-#: (Cochran's n > 25 G1^2 rewritten as G1 / sqrt(n) < 0.2).
-OVERALL_SKEWNESS_LIMIT = 0.2
-#: Fewest non-zero differences for difference and ratio intervals: common
-#: audit practice, quoted from memory, no single published source.
-FEW_DIFFERENCES = 20
+#: Thresholds of the whole-estimate flags, defined once in core.normality
+#: (the coverage simulation uses the same ones).
+OVERALL_SKEWNESS_LIMIT = _normality.OVERALL_SKEWNESS_LIMIT
+FEW_DIFFERENCES = _normality.FEW_DIFFERENCES
 
 _WHAT_IS_AVERAGED = {
     "mpu": "audited values",

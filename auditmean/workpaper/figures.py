@@ -326,6 +326,23 @@ def _rows(by_estimator: Sequence[Mapping[str, Any]], col: str) -> np.ndarray:
     return np.array([float(r[col]) if _finite(r.get(col)) else np.nan for r in by_estimator])
 
 
+def _share_bars(fig: go.Figure, names: list[str], by_estimator: Sequence[Mapping[str, Any]], series, hover: str) -> None:
+    """One bar trace per (label, column, colour) present, with +/- 2 Monte Carlo standard errors."""
+    for label, col, colour in series:
+        if not by_estimator or col not in by_estimator[0]:
+            continue
+        p = _rows(by_estimator, col)
+        se = _rows(by_estimator, col + "_mc_se")
+        fig.add_trace(
+            go.Bar(
+                x=names, y=p, name=label, marker_color=colour,
+                error_y=dict(type="data", array=2 * np.nan_to_num(se), visible=True),
+                hovertext=[hover.format(name=n, label=label, value=v, margin=2 * m) for n, v, m in zip(names, p, se)],
+                hoverinfo="text",
+            )
+        )
+
+
 def coverage_by_estimator(by_estimator: Sequence[Mapping[str, Any]], confidence: float) -> go.Figure:
     """Share of simulated samples whose limits held, per estimator, with two Monte Carlo standard errors.
 
@@ -337,19 +354,7 @@ def coverage_by_estimator(by_estimator: Sequence[Mapping[str, Any]], confidence:
     series = [("two-sided interval", "coverage", _MAIN), ("one-sided lower bound", "one_sided_coverage", _LIGHT)]
     if by_estimator and "second_opinion_coverage" in by_estimator[0]:
         series.append(("second opinion, two-sided", "second_opinion_coverage", _ACCENT))
-    for label, col, colour in series:
-        if not by_estimator or col not in by_estimator[0]:
-            continue
-        p = _rows(by_estimator, col)
-        se = _rows(by_estimator, col + "_mc_se")
-        fig.add_trace(
-            go.Bar(
-                x=names, y=p, name=label, marker_color=colour,
-                error_y=dict(type="data", array=2 * np.nan_to_num(se), visible=True),
-                hovertext=[f"{n}: {label} held in {v:.1%} of simulated samples (± {2 * s:.1%})" for n, v, s in zip(names, p, se)],
-                hoverinfo="text",
-            )
-        )
+    _share_bars(fig, names, by_estimator, series, "{name}: {label} held in {value:.1%} of simulated samples (± {margin:.1%})")
     fig.add_hline(y=float(confidence), line=dict(color=_GREY, dash="dash"),
                   annotation_text=f"nominal {float(confidence):.0%}", annotation_position="top right")
     fig.update_layout(
@@ -364,22 +369,11 @@ def coverage_risks(by_estimator: Sequence[Mapping[str, Any]], nominal_acceptance
     """The simulated risks of incorrect acceptance (at tolerable) and rejection (at expected), per estimator."""
     names = [METHOD_NAMES.get(r.get("estimator"), str(r.get("estimator"))) for r in by_estimator]
     fig = go.Figure()
-    for label, col, colour in (
+    series = (
         ("risk of incorrect acceptance (misstated by tolerable)", "risk_incorrect_acceptance", _ACCENT),
         ("risk of incorrect rejection (misstated as expected)", "risk_incorrect_rejection", _MAIN),
-    ):
-        if not by_estimator or col not in by_estimator[0]:
-            continue
-        p = _rows(by_estimator, col)
-        se = _rows(by_estimator, col + "_mc_se")
-        fig.add_trace(
-            go.Bar(
-                x=names, y=p, name=label, marker_color=colour,
-                error_y=dict(type="data", array=2 * np.nan_to_num(se), visible=True),
-                hovertext=[f"{n}: {label} {v:.1%} (± {2 * s:.1%})" for n, v, s in zip(names, p, se)],
-                hoverinfo="text",
-            )
-        )
+    )
+    _share_bars(fig, names, by_estimator, series, "{name}: {label} {value:.1%} (± {margin:.1%})")
     if nominal_acceptance is not None and _finite(nominal_acceptance):
         fig.add_hline(y=float(nominal_acceptance), line=dict(color=_GREY, dash="dash"),
                       annotation_text=f"nominal {float(nominal_acceptance):.0%}", annotation_position="top right")
