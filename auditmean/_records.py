@@ -16,7 +16,7 @@ from __future__ import annotations
 import dataclasses
 import html
 import math
-from collections.abc import Mapping, Sequence
+from collections.abc import Iterable, Mapping, Sequence
 from typing import Any
 
 import numpy as np
@@ -117,9 +117,13 @@ class RecordMixin:
     record_kind: str = "record"
 
     def to_dict(self) -> dict[str, Any]:
+        return self._dict_of(f.name for f in dataclasses.fields(self))  # type: ignore[arg-type]
+
+    def _dict_of(self, names: Iterable[str]) -> dict[str, Any]:
+        """The record's kind and schema version, then the named attributes, each made JSON-safe."""
         out: dict[str, Any] = {"schema_version": SCHEMA_VERSION, "kind": self.record_kind}
-        for f in dataclasses.fields(self):  # type: ignore[arg-type]
-            out[f.name] = json_safe(getattr(self, f.name))
+        for name in names:
+            out[name] = json_safe(getattr(self, name))
         return out
 
     def summary(self) -> str:  # pragma: no cover - every record overrides it

@@ -17,8 +17,9 @@ import io
 import math
 import numbers
 import os
+import threading
 from concurrent.futures import ThreadPoolExecutor
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from typing import Any
 
 import numpy as np
@@ -58,6 +59,38 @@ _ROW_ONE_EMPTY = "row 1 is empty; the column names must be in row 1, with the it
 # The record
 
 
+class _ContentFingerprint:
+    """The content fingerprint of a loaded population, computed the first time it is asked for.
+
+    Holds the checked ids, values and labels as loaded (Arrow arrays are
+    immutable and the values array is read-only), so the digest describes
+    the items as loaded whenever it is computed. Safe to ask from several
+    threads: the first computes, the others wait for it.
+    """
+
+    __slots__ = ("_ids", "_values", "_strata", "_digest", "_lock")
+
+    def __init__(self, ids: pa.Array, values: np.ndarray, strata: pa.Array | None) -> None:
+        self._ids: pa.Array | None = ids
+        self._values: np.ndarray | None = values
+        self._strata = strata
+        self._digest: str | None = None
+        self._lock = threading.Lock()
+
+    def hexdigest(self) -> str:
+        with self._lock:
+            ids, values, strata = self._ids, self._values, self._strata
+            if self._digest is None and ids is not None and values is not None:
+                order = _id_order(ids)
+                h = hashlib.sha256()
+                update_fingerprint(
+                    h, ids.take(pa.array(order)), values[order], None if strata is None else strata.take(pa.array(order))
+                )
+                self._digest = h.hexdigest()
+                self._ids = self._values = self._strata = None  # the items are not needed again
+            return str(self._digest)
+
+
 @dataclass(frozen=True, eq=False)
 class Population(RecordMixin):
     """The items of a population, checked, with fingerprints of where they came from.
@@ -68,7 +101,8 @@ class Population(RecordMixin):
         DataFrame indexed ``0 .. count - 1`` in the order of the source, with
         columns ``item_id`` (text, dtype ``str``), ``book_value`` (float64)
         and, when a stratum column was named, ``preassigned_stratum`` (text).
-        Treat it as read-only: the fingerprints describe it as loaded.
+        Treat it as read-only: ``book_values``, ``total`` and the fingerprints
+        describe the items as loaded, whatever is written into this table later.
     source:
         The file path as given, or ``"<DataFrame>"``.
     id_column, value_column, stratum_column:
@@ -80,6 +114,9 @@ class Population(RecordMixin):
         SHA-256 (hex) of the canonical text of the items (see
         :func:`content_fingerprint`): the same for the same items whether
         they came from CSV, Excel, Parquet or a DataFrame, and in any row order.
+        Computed from the items as loaded the first time it is read (it
+        needs the items in id order, the dearest step of intake, and
+        profiling or stratifying does not need it), then kept.
     count:
         Number of items.
     total:
@@ -98,16 +135,26 @@ class Population(RecordMixin):
     value_column: str
     stratum_column: str | None
     file_sha256: str | None
-    content_sha256: str
     count: int
     total: float
+    _values: np.ndarray = field(repr=False)
+    _content: _ContentFingerprint = field(repr=False)
+
+    @property
+    def content_sha256(self) -> str:
+        """SHA-256 (hex) of the canonical text of the items as loaded (see :func:`content_fingerprint`)."""
+        return self._content.hexdigest()
 
     @property
     def book_values(self) -> np.ndarray:
-        """The book values as a read-only float64 array, in item order."""
-        values = self.items["book_value"].to_numpy(dtype=np.float64, copy=True)
-        values.flags.writeable = False
-        return values
+        """The book values as loaded, a read-only float64 array in item order."""
+        return self._values
+
+    def to_dict(self) -> dict[str, Any]:
+        return self._dict_of(
+            ("items", "source", "id_column", "value_column", "stratum_column")
+            + ("file_sha256", "content_sha256", "count", "total")
+        )
 
     @property
     def item_ids(self) -> np.ndarray:
@@ -328,6 +375,63 @@ def _id_order(ids: pa.Array) -> np.ndarray:
     return order.astype(np.int64)
 
 
+_HASH_LENGTH = np.uint64(0x9E3779B97F4A7C15)
+_HASH_WORD = np.uint64(0xBF58476D1CE4E5B9)
+_HASH_FINAL = np.uint64(0x94D049BB133111EB)
+_WORD_MASKS = np.array([0] + [(1 << (8 * r)) - 1 for r in range(1, 8)] + [(1 << 64) - 1], dtype=np.uint64)
+_HASH_BLOCK = 1 << 16  # ids per block: small temporary arrays, reused block after block
+
+
+def _id_hashes(ids: pa.Array) -> np.ndarray:
+    """A 64-bit hash of each id's UTF-8 bytes and length, in vectorised passes of eight bytes.
+
+    Equal ids have equal hashes; different ids almost never do. It serves
+    only to find the ids that may repeat, which :func:`_check_unique` then
+    confirms exactly, so a collision costs time, never a wrong answer. Each
+    step multiplies by an odd 64-bit constant and folds the high bits down
+    (xor-shift); the constants are those of the SplitMix64 generator's
+    finaliser (Steele, Lea and Flood 2014, "Fast splittable pseudorandom
+    number generators", OOPSLA; quoted from memory), the arrangement is ours.
+    Its quality is checked only by the tests (no collision among distinct
+    ids of the generated cases).
+    """
+    n = len(ids)
+    width = np.int64 if pa.types.is_large_string(ids.type) else np.int32
+    offsets = np.frombuffer(ids.buffers()[1], dtype=width)[ids.offset : ids.offset + n + 1]
+    data = ids.buffers()[2]
+    raw = np.frombuffer(data, dtype=np.uint8) if data is not None else np.empty(0, dtype=np.uint8)
+    out = np.empty(n, dtype=np.uint64)
+    s30, s31 = np.uint64(30), np.uint64(31)
+    for a in range(0, n, _HASH_BLOCK):
+        b = min(n, a + _HASH_BLOCK)
+        off = offsets[a : b + 1].astype(np.int64)
+        first, last = int(off[0]), int(off[-1])
+        padded = np.zeros(last - first + 8, dtype=np.uint8)
+        padded[: last - first] = raw[first:last]
+        # every run of eight bytes, as a little-endian word, starting at each byte
+        words = np.ndarray((last - first + 1,), dtype="<u8", buffer=padded, strides=(1,))
+        starts = off[:-1] - first
+        lengths = off[1:] - off[:-1]
+        h = lengths.astype(np.uint64) * _HASH_LENGTH
+        for j in range(0, int(lengths.max()), 8):
+            # ids shorter than j bytes are masked to nothing; their position is only kept in range
+            h ^= words[np.minimum(starts + j, last - first)] & _WORD_MASKS[np.clip(lengths - j, 0, 8)]
+            h *= _HASH_WORD
+            h ^= h >> s31
+        h ^= h >> s30
+        h *= _HASH_FINAL
+        h ^= h >> s31
+        out[a:b] = h
+    return out
+
+
+def _ids_may_repeat(ids: pa.Array) -> bool:
+    """False when the ids are certainly all different; True when some may repeat (then check exactly)."""
+    if len(ids) < 2:
+        return False
+    return not pd.Index(_id_hashes(ids)).is_unique
+
+
 def _as_text_array(labels: Any, name: str) -> pa.Array:
     if isinstance(labels, pa.ChunkedArray):
         labels = labels.combine_chunks()
@@ -448,48 +552,43 @@ def load_population(
     positions = {role: _column_position(header, name, role, where, sep) for role, name in named}
 
     ids = _labels(body[positions["id_column"]], "item id", id_column, where, body)
-    # The id order serves both the check for repeated ids (neighbours in it)
-    # and the content fingerprint; it is computed once, in a second thread
-    # while the amounts are read (the sort releases the GIL). An error in the
-    # amounts waits until the ids are checked, so repeated ids are still
-    # reported first.
+    # Repeated ids are looked for in a second thread while the amounts are
+    # read (the hashing releases the GIL). An error in the amounts waits
+    # until the ids are checked, so repeated ids are still reported first.
     with ThreadPoolExecutor(max_workers=1) as pool:
-        sorting = pool.submit(_id_order, ids)
+        looking = pool.submit(_ids_may_repeat, ids)
         amount_error: InputError | None = None
         try:
             values = parse_amounts(body[positions["value_column"]], decimal=decimal, column=value_column, **where)
         except InputError as exc:
             amount_error = exc
-        order = sorting.result()
-    sorted_ids = ids.take(pa.array(order))
-    if len(sorted_ids) > 1 and pc.any(pc.equal(sorted_ids[1:], sorted_ids[:-1])).as_py():
+        may_repeat = looking.result()
+    if may_repeat:
         _check_unique(ids, id_column, where)
     if amount_error is not None:
         raise amount_error
+    values = np.array(values, dtype=np.float64)  # the record's own copy
+    values.flags.writeable = False
     columns: dict[str, Any] = {
         "item_id": pd.array(ids, dtype="str"),
-        "book_value": values,
+        "book_value": values.copy(),
     }
     if stratum_column is not None:
         strata = _labels(body[positions["stratum_column"]], "stratum", stratum_column, where, body)
         columns["preassigned_stratum"] = pd.array(strata, dtype="str")
     else:
         strata = None
-    items = pd.DataFrame(columns)
-    fingerprint = hashlib.sha256()
-    update_fingerprint(
-        fingerprint, sorted_ids, values[order], None if strata is None else strata.take(pa.array(order))
-    )
     return Population(
-        items=items,
+        items=pd.DataFrame(columns),
         source=source_name,
         id_column=id_column,
         value_column=value_column,
         stratum_column=stratum_column,
         file_sha256=file_sha256,
-        content_sha256=fingerprint.hexdigest(),
         count=int(values.size),
         total=exact_sum(values),
+        _values=values,
+        _content=_ContentFingerprint(ids, values, strata),
     )
 
 
@@ -511,10 +610,21 @@ def _read_file(
         raise InputError("is a folder, not a file", **where) from None
     except OSError as exc:
         raise InputError(f"cannot be opened: {exc.strerror or exc}", **where) from None
-    file_sha256 = hashlib.sha256(data).hexdigest()
     if not data:
         raise InputError("the file is empty (0 bytes)", **where)
+    # The file's SHA-256 is computed in a second thread while the file is
+    # parsed (hashlib releases the GIL on large inputs).
+    with ThreadPoolExecutor(max_workers=1) as pool:
+        digest = pool.submit(lambda: hashlib.sha256(data).hexdigest())
+        header, body = _parse_file(data, path, ext, sheet=sheet, encoding=encoding, sep=sep)
+        return header, body, digest.result()
 
+
+def _parse_file(
+    data: bytes, path: str, ext: str, *, sheet: str | int | None, encoding: str, sep: str | None
+) -> tuple[list[Any], pd.DataFrame]:
+    """Header cells and body (columns numbered 0..k-1) of a file's bytes."""
+    where = {"file": path}
     if ext in CSV_EXTENSIONS:
         if sep is None:
             sep = "\t" if ext == ".tsv" else ","
@@ -524,7 +634,7 @@ def _read_file(
     else:
         table = _read_parquet(data, path)
         header = [str(c) for c in table.columns]
-        return header, table.set_axis(range(table.shape[1]), axis=1), file_sha256
+        return header, table.set_axis(range(table.shape[1]), axis=1)
 
     if table.shape[0] == 0 or table.shape[1] == 0:
         raise InputError("the file holds no rows", **where)
@@ -535,7 +645,7 @@ def _read_file(
     last = len(body)
     while last > 0 and _row_is_empty(body.iloc[last - 1].tolist()):
         last -= 1
-    return header_cells, body.iloc[:last], file_sha256
+    return header_cells, body.iloc[:last]
 
 
 def _read_delimited(data: bytes, path: str, *, encoding: str, sep: str) -> pd.DataFrame:

@@ -30,16 +30,15 @@ import pandas as pd
 
 from auditmean._frames import duplicated_rows, label_column, numeric_column, require_columns
 from auditmean._records import (
-    SCHEMA_VERSION,
     RecordMixin,
     format_number,
     html_table,
-    json_safe,
     text_table,
 )
 from auditmean.core import boundaries as bnd
 from auditmean.core import sizing as sz
 from auditmean.errors import InputError, ParameterError, spreadsheet_row
+from auditmean.population import Population
 
 __all__ = [
     "METHODS",
@@ -117,7 +116,9 @@ class Strata(RecordMixin):
         For each item, in the order of the input rows, the position of its
         stratum in ``labels`` (int64).
     item_ids, book_values:
-        The items as given, aligned with ``codes``.
+        The items as given, aligned with ``codes``: the ids as an array of
+        text (for a Population, its own arrow-backed column, not copied),
+        the book values as float64.
     parameters:
         The arguments of :func:`stratify` that shaped the strata.
     details:
@@ -145,7 +146,7 @@ class Strata(RecordMixin):
     table: pd.DataFrame
     labels: tuple[str, ...]
     codes: np.ndarray = field(repr=False)
-    item_ids: np.ndarray = field(repr=False)
+    item_ids: Any = field(repr=False)
     book_values: np.ndarray = field(repr=False)
     parameters: dict[str, Any] = field(default_factory=dict)
     details: dict[str, Any] = field(default_factory=dict)
@@ -185,22 +186,10 @@ class Strata(RecordMixin):
 
     # --- records ------------------------------------------------------------
     def to_dict(self) -> dict[str, Any]:
-        out: dict[str, Any] = {"schema_version": SCHEMA_VERSION, "kind": self.record_kind}
-        for name in (
-            "method",
-            "n_strata",
-            "boundaries",
-            "top_cutoff",
-            "top_rule",
-            "credits",
-            "zeros",
-            "table",
-            "labels",
-            "parameters",
-            "details",
-            "notes",
-        ):
-            out[name] = json_safe(getattr(self, name))
+        out = self._dict_of(
+            ("method", "n_strata", "boundaries", "top_cutoff", "top_rule", "credits", "zeros")
+            + ("table", "labels", "parameters", "details", "notes")
+        )
         out["item_count"] = self.item_count
         return out
 
@@ -481,9 +470,14 @@ def stratify(
         ``n_strata`` non-empty strata.
     """
     df, table = _items(population)
-    require_columns(df, ["item_id", "book_value"], table, why="needed to stratify")
-    x = numeric_column(df, "book_value", table)
-    ids = _item_ids(df, table)
+    if isinstance(population, Population):
+        # checked once, when it was loaded: its values and unique ids as loaded
+        x = population.book_values
+        ids = population.items["item_id"].array
+    else:
+        require_columns(df, ["item_id", "book_value"], table, why="needed to stratify")
+        x = numeric_column(df, "book_value", table)
+        ids = _item_ids(df, table)
     credits = _choice("credits", credits, _POLICIES)
     zeros = _choice("zeros", zeros, _POLICIES)
     n_classes = _whole("n_classes", n_classes, 2)

@@ -39,7 +39,12 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from auditmean.core.moments import group_counts, group_means, sample_skewness
+from auditmean.core.moments import (
+    exact_group_sums,
+    group_counts,
+    group_means,
+    skewness_of_spread,
+)
 from auditmean.core.sizing import neyman_size
 
 __all__ = [
@@ -206,7 +211,8 @@ def stratum_statistics(values: np.ndarray, codes: np.ndarray, n_strata: int) -> 
     Fisher-Pearson coefficient ``G1`` (Joanes and Gill 1998, The
     Statistician 47, 183-189; as ``scipy.stats.skew(bias=False)``), NaN
     below three items, 0 when all values are equal. Totals are correctly
-    rounded sums (:func:`math.fsum`), so that a stratum's book total matches
+    rounded sums (:func:`auditmean.core.moments.exact_group_sums`, the
+    numbers :func:`math.fsum` gives), so that a stratum's book total matches
     the sum of its items to the cent.
     """
     x = np.asarray(values, dtype=float)
@@ -214,21 +220,26 @@ def stratum_statistics(values: np.ndarray, codes: np.ndarray, n_strata: int) -> 
     count = group_counts(codes, n_strata)
     mean = group_means(codes, n_strata, x, count)
     d = x - mean[codes]
-    ss = np.bincount(codes, weights=d * d, minlength=n_strata)
+    d2 = d * d
+    ss = np.bincount(codes, weights=d2, minlength=n_strata)
     with np.errstate(invalid="ignore", divide="ignore"):
         std = np.where(count > 1, np.sqrt(ss / np.maximum(count - 1, 1)), np.nan)
-    skew = sample_skewness(codes, n_strata, x)
-    order = np.argsort(codes, kind="stable")
-    starts = np.concatenate([[0], np.cumsum(count)])
-    xs = x[order]
-    total = np.array([math.fsum(xs[starts[h] : starts[h + 1]]) for h in range(n_strata)])
-    mins = np.full(n_strata, np.nan)
-    maxs = np.full(n_strata, np.nan)
-    nonempty = count > 0
-    if nonempty.any():
-        first = starts[:-1][nonempty]
-        mins[nonempty] = np.minimum.reduceat(xs, first)
-        maxs[nonempty] = np.maximum.reduceat(xs, first)
+    d2 *= d
+    # the G1 of sample_skewness, from the same centred sums
+    skew = skewness_of_spread(
+        count,
+        ss,
+        np.bincount(codes, weights=d2, minlength=n_strata),
+        np.bincount(codes, weights=x * x, minlength=n_strata),
+    )
+    total = exact_group_sums(codes, n_strata, x)
+    mins = np.full(n_strata, np.inf)
+    maxs = np.full(n_strata, -np.inf)
+    np.minimum.at(mins, codes, x)
+    np.maximum.at(maxs, codes, x)
+    empty = count == 0
+    mins[empty] = np.nan
+    maxs[empty] = np.nan
     return StratumStatistics(count, total, mean, std, skew, mins, maxs)
 
 

@@ -45,8 +45,9 @@ METHODS: tuple[Method, ...] = (
     ),
     Method(
         "population", "total of book values",
-        "the sum of the book values correctly rounded to the nearest double (independent of row order)",
-        "Shewchuk, J. R. (1997), Discrete & Computational Geometry 18, 305-363 (math.fsum)",
+        "the exact sum of the book values, rounded once to the nearest double (independent of row order)",
+        "correct rounding as IEEE 754 defines it; the number math.fsum gives "
+        "(Shewchuk, J. R. (1997), Discrete & Computational Geometry 18, 305-363)",
         "auditmean.core.profile.exact_sum",
     ),
     Method(
