@@ -13,6 +13,7 @@ from collections.abc import Iterable
 import numpy as np
 import pandas as pd
 
+from auditmean._repeats import labels_may_repeat
 from auditmean.errors import InputError, spreadsheet_row
 
 __all__ = ["require_frame", "require_columns", "numeric_column", "integer_column", "label_column", "duplicated_rows"]
@@ -87,5 +88,7 @@ def label_column(df: pd.DataFrame, column: str, table: str, file: str | None = N
 
 def duplicated_rows(labels: pd.Series) -> list[int]:
     """Spreadsheet rows of every label that occurs more than once."""
+    if not labels_may_repeat(labels):  # hashes first: certainly none repeats
+        return []
     dup = labels.duplicated(keep=False).to_numpy()
     return _bad_rows(dup)

@@ -79,6 +79,12 @@ def format_number(value: Any, decimals: int = 2) -> str:
     return f"{v:,.{decimals}f}"
 
 
+def property_text(title: str, rows: Sequence[tuple[str, str]]) -> str:
+    """A title, then one indented ``name  value`` line per row, the names padded to one width."""
+    width = max(len(k) for k, _ in rows)
+    return title + "\n" + "\n".join(f"  {k.ljust(width)}  {v}" for k, v in rows)
+
+
 def text_table(header: Sequence[str], rows: Sequence[Sequence[Any]]) -> str:
     """A plain fixed-width table: first column left-aligned, the others right-aligned."""
     cells = [[str(h) for h in header]] + [[str(c) for c in r] for r in rows]

@@ -28,7 +28,8 @@ import pyarrow as pa
 import pyarrow.compute as pc
 import pyarrow.csv as pacsv
 
-from auditmean._records import RecordMixin, format_number, html_table, text_table
+from auditmean._records import RecordMixin, format_number, html_table, property_text, text_table
+from auditmean._repeats import ids_may_repeat
 from auditmean.amounts import parse_amounts
 from auditmean.core.profile import describe, exact_sum
 from auditmean.errors import InputError, ParameterError, spreadsheet_row
@@ -186,9 +187,7 @@ class Population(RecordMixin):
         ]
 
     def summary(self) -> str:
-        rows = self._rows()
-        width = max(len(k) for k, _ in rows)
-        return "Population\n" + "\n".join(f"  {k.ljust(width)}  {v}" for k, v in rows)
+        return property_text("Population", self._rows())
 
     def _html_body(self) -> str:
         return html_table(["property", "value"], self._rows(), caption="Population")
@@ -375,63 +374,6 @@ def _id_order(ids: pa.Array) -> np.ndarray:
     return order.astype(np.int64)
 
 
-_HASH_LENGTH = np.uint64(0x9E3779B97F4A7C15)
-_HASH_WORD = np.uint64(0xBF58476D1CE4E5B9)
-_HASH_FINAL = np.uint64(0x94D049BB133111EB)
-_WORD_MASKS = np.array([0] + [(1 << (8 * r)) - 1 for r in range(1, 8)] + [(1 << 64) - 1], dtype=np.uint64)
-_HASH_BLOCK = 1 << 16  # ids per block: small temporary arrays, reused block after block
-
-
-def _id_hashes(ids: pa.Array) -> np.ndarray:
-    """A 64-bit hash of each id's UTF-8 bytes and length, in vectorised passes of eight bytes.
-
-    Equal ids have equal hashes; different ids almost never do. It serves
-    only to find the ids that may repeat, which :func:`_check_unique` then
-    confirms exactly, so a collision costs time, never a wrong answer. Each
-    step multiplies by an odd 64-bit constant and folds the high bits down
-    (xor-shift); the constants are those of the SplitMix64 generator's
-    finaliser (Steele, Lea and Flood 2014, "Fast splittable pseudorandom
-    number generators", OOPSLA; quoted from memory), the arrangement is ours.
-    Its quality is checked only by the tests (no collision among distinct
-    ids of the generated cases).
-    """
-    n = len(ids)
-    width = np.int64 if pa.types.is_large_string(ids.type) else np.int32
-    offsets = np.frombuffer(ids.buffers()[1], dtype=width)[ids.offset : ids.offset + n + 1]
-    data = ids.buffers()[2]
-    raw = np.frombuffer(data, dtype=np.uint8) if data is not None else np.empty(0, dtype=np.uint8)
-    out = np.empty(n, dtype=np.uint64)
-    s30, s31 = np.uint64(30), np.uint64(31)
-    for a in range(0, n, _HASH_BLOCK):
-        b = min(n, a + _HASH_BLOCK)
-        off = offsets[a : b + 1].astype(np.int64)
-        first, last = int(off[0]), int(off[-1])
-        padded = np.zeros(last - first + 8, dtype=np.uint8)
-        padded[: last - first] = raw[first:last]
-        # every run of eight bytes, as a little-endian word, starting at each byte
-        words = np.ndarray((last - first + 1,), dtype="<u8", buffer=padded, strides=(1,))
-        starts = off[:-1] - first
-        lengths = off[1:] - off[:-1]
-        h = lengths.astype(np.uint64) * _HASH_LENGTH
-        for j in range(0, int(lengths.max()), 8):
-            # ids shorter than j bytes are masked to nothing; their position is only kept in range
-            h ^= words[np.minimum(starts + j, last - first)] & _WORD_MASKS[np.clip(lengths - j, 0, 8)]
-            h *= _HASH_WORD
-            h ^= h >> s31
-        h ^= h >> s30
-        h *= _HASH_FINAL
-        h ^= h >> s31
-        out[a:b] = h
-    return out
-
-
-def _ids_may_repeat(ids: pa.Array) -> bool:
-    """False when the ids are certainly all different; True when some may repeat (then check exactly)."""
-    if len(ids) < 2:
-        return False
-    return not pd.Index(_id_hashes(ids)).is_unique
-
-
 def _as_text_array(labels: Any, name: str) -> pa.Array:
     if isinstance(labels, pa.ChunkedArray):
         labels = labels.combine_chunks()
@@ -556,7 +498,7 @@ def load_population(
     # read (the hashing releases the GIL). An error in the amounts waits
     # until the ids are checked, so repeated ids are still reported first.
     with ThreadPoolExecutor(max_workers=1) as pool:
-        looking = pool.submit(_ids_may_repeat, ids)
+        looking = pool.submit(ids_may_repeat, ids)
         amount_error: InputError | None = None
         try:
             values = parse_amounts(body[positions["value_column"]], decimal=decimal, column=value_column, **where)
@@ -1086,22 +1028,8 @@ def profile(population_or_values: Population | Any) -> Profile:
     if values.size == 0:
         raise ParameterError("population_or_values", "holds no values; a profile needs at least one item")
     stats = describe(np.ascontiguousarray(values, dtype=np.float64))
-    return Profile(
-        count=stats.count,
-        total=stats.total,
-        mean=stats.mean,
-        std_dev=stats.std_dev,
-        skewness=stats.skewness,
-        quantiles=stats.quantiles,
-        top_1pct_share=stats.top_1pct_share,
-        top_5pct_share=stats.top_5pct_share,
-        credit_count=stats.credit_count,
-        credit_total=stats.credit_total,
-        zero_count=stats.zero_count,
-        positive_count=stats.positive_count,
-        positive_total=stats.positive_total,
-        notes=_notes(stats.credit_count, stats.credit_total, stats.zero_count),
-    )
+    # every statistic of the core's record, as it is, and the notes on top
+    return Profile(**vars(stats), notes=_notes(stats.credit_count, stats.credit_total, stats.zero_count))
 
 
 def _notes(credit_count: int, credit_total: float, zero_count: int) -> tuple[str, ...]:

@@ -22,7 +22,9 @@ import pytest
 from hypothesis import example, given, settings
 from hypothesis import strategies as st
 
-import auditmean.population as population_module
+import auditmean._repeats as repeats_module
+from auditmean._frames import duplicated_rows
+from auditmean._repeats import id_hashes, labels_may_repeat
 from auditmean.core.boundaries import stratum_statistics
 from auditmean.core.moments import exact_group_sums, exact_sum_of_groups
 from auditmean.core.profile import (
@@ -34,7 +36,7 @@ from auditmean.core.profile import (
     top_share,
 )
 from auditmean.errors import InputError
-from auditmean.population import _id_hashes, content_fingerprint, load_population
+from auditmean.population import content_fingerprint, load_population
 from auditmean.strata import stratify
 
 finite = st.floats(allow_nan=False, allow_infinity=False, width=64)
@@ -170,7 +172,7 @@ id_text = st.text(
 def test_equal_ids_have_equal_hashes_and_distinct_ones_differ(ids) -> None:
     # reference: Python str equality. Equal ids must hash equal; distinct ids of these
     # sizes colliding in 64 bits would be a one-in-2**58 event, so any collision is a fault.
-    h = _id_hashes(pa.array(ids, type=pa.string())).tolist()
+    h = id_hashes(pa.array(ids, type=pa.string())).tolist()
     for i in range(len(ids)):
         for j in range(len(ids)):
             assert (h[i] == h[j]) == (ids[i] == ids[j])
@@ -181,8 +183,8 @@ def test_hashes_do_not_depend_on_position_or_block() -> None:
     accent = "\u00e9"
     ids = [f"X{i:06d}-{accent * (i % 5)}{'z' * (i % 23)}" for i in range(140_000)]
     arr = pa.array(ids, type=pa.string())
-    whole = _id_hashes(arr)
-    part = _id_hashes(arr.slice(70_001))
+    whole = id_hashes(arr)
+    part = id_hashes(arr.slice(70_001))
     assert np.array_equal(whole[70_001:], part)
     assert len(set(whole.tolist())) == len(ids)  # reference: Python set of the distinct ids (all distinct)
 
@@ -198,12 +200,32 @@ def test_repeats_far_apart_are_reported_with_their_rows(tmp_path: Path) -> None:
 
 def test_a_hash_collision_costs_time_not_a_false_report(monkeypatch) -> None:
     # every id hashed alike: the exact check must still accept distinct ids and report a real repeat
-    monkeypatch.setattr(population_module, "_id_hashes", lambda ids: np.zeros(len(ids), dtype=np.uint64))
+    monkeypatch.setattr(repeats_module, "id_hashes", lambda ids: np.zeros(len(ids), dtype=np.uint64))
     frame = pd.DataFrame({"id": ["a", "b", "c"], "amount": [1.0, 2.0, 3.0]})
     pop = load_population(frame, id_column="id", value_column="amount")
     assert pop.count == 3
     with pytest.raises(InputError, match="appear more than once"):
         load_population(frame.assign(id=["a", "b", "a"]), id_column="id", value_column="amount")
+    assert duplicated_rows(pd.Series(["a", "b", "c"])) == []
+    assert duplicated_rows(pd.Series(["a", "b", "a"])) == [2, 4]
+
+
+@pytest.mark.parametrize(
+    "labels",
+    [
+        ["x", "y", "x"],  # text
+        ["x", None, "y", None],  # missing entries: the exact check decides
+        [1, 2, 1],  # numbers
+        pd.Series(["b", "a", "b"], dtype="category"),
+        pd.Series(["b", "a", "b"], dtype="str"),
+    ],
+)
+def test_repeated_labels_in_tables_as_pandas_finds_them(labels) -> None:
+    # reference: pandas Series.duplicated(keep=False), the check before the hash prefilter
+    series = labels if isinstance(labels, pd.Series) else pd.Series(labels, dtype=object)
+    expected = [i + 2 for i in np.flatnonzero(series.duplicated(keep=False).to_numpy())]
+    assert duplicated_rows(series) == expected
+    assert labels_may_repeat(series) or expected == []
 
 
 # --- the content fingerprint, computed when first read --------------------------

@@ -28,7 +28,7 @@ import numpy as np
 import pandas as pd
 import pyarrow.parquet as pq
 
-from auditmean._records import RecordMixin, format_number, html_table
+from auditmean._records import RecordMixin, format_number, html_table, property_text
 from auditmean.core import boundaries as bnd
 from auditmean.errors import InputError, ParameterError
 from auditmean.population import PARQUET_EXTENSIONS, Population, load_population
@@ -202,9 +202,7 @@ class LargePopulation(RecordMixin):
         ]
 
     def summary(self) -> str:
-        rows = self._rows()
-        width = max(len(k) for k, _ in rows)
-        return "Population (large file)\n" + "\n".join(f"  {k.ljust(width)}  {v}" for k, v in rows)
+        return property_text("Population (large file)", self._rows())
 
     def _html_body(self) -> str:
         return html_table(["property", "value"], self._rows(), caption="Population (large file)")

@@ -26,8 +26,9 @@ sys.path.insert(0, os.path.dirname(__file__))
 from _populations import write_csv  # noqa: E402
 from _timing import best_of  # noqa: E402
 
+from auditmean._repeats import ids_may_repeat  # noqa: E402
 from auditmean.core.profile import exact_sum  # noqa: E402
-from auditmean.population import _ids_may_repeat, load_population, profile, strip_text  # noqa: E402
+from auditmean.population import load_population, profile, strip_text  # noqa: E402
 from auditmean.strata import stratify  # noqa: E402
 
 ROWS = 1_000_000
@@ -75,7 +76,7 @@ def main() -> None:
         ("read every cell as text (pyarrow)", t_text),
         ("SHA-256 of the file", best_of(lambda: hashlib.sha256(data).hexdigest())[0]),
         ("strip the ids (as str.strip)", best_of(lambda: strip_text(ids))[0]),
-        ("look for repeated ids (64-bit hashes)", best_of(lambda: _ids_may_repeat(ids))[0]),
+        ("look for repeated ids (64-bit hashes)", best_of(lambda: ids_may_repeat(ids))[0]),
         ("amounts to float64 (one cast)", best_of(lambda: pc.cast(amounts, pa.float64()))[0]),
     ]
     values = pc.cast(amounts, pa.float64()).to_numpy()
