@@ -31,7 +31,7 @@ import pyarrow.csv as pacsv
 from auditmean._records import RecordMixin, format_number, html_table, property_text, text_table
 from auditmean._repeats import ids_may_repeat
 from auditmean.amounts import parse_amounts
-from auditmean.core.profile import describe, exact_sum
+from auditmean.core.profile import BookValueStats, describe, exact_sum
 from auditmean.errors import InputError, ParameterError, spreadsheet_row
 
 __all__ = [
@@ -900,7 +900,7 @@ def _check_unique(ids: pa.Array, name: str, where: dict[str, str]) -> None:
 
 
 @dataclass(frozen=True)
-class Profile(RecordMixin):
+class Profile(BookValueStats, RecordMixin):
     """A description of a population's book values.
 
     Attributes
@@ -936,19 +936,6 @@ class Profile(RecordMixin):
 
     record_kind = "profile"
 
-    count: int
-    total: float
-    mean: float
-    std_dev: float
-    skewness: float
-    quantiles: dict[float, float]
-    top_1pct_share: float
-    top_5pct_share: float
-    credit_count: int
-    credit_total: float
-    zero_count: int
-    positive_count: int
-    positive_total: float
     notes: tuple[str, ...]
 
     def _statistics(self) -> list[tuple[str, str]]:
