@@ -12,10 +12,11 @@ CAUTIONS: tuple[str, ...] = (
     "A statistical result supports, and never replaces, the auditor's professional judgement.",
     "Apply the auditing standards and the firm's methodology that govern the engagement; "
     "where they differ from what auditmean does, they prevail.",
-    "The confidence limits rest on the normal approximation, which needs samples large enough "
-    "for the skewness of what each stratum averages. Accounting populations with few, large "
-    "misstatements are where it fails: read every warning, and the second-opinion interval "
-    "where one is given.",
+    "The classical confidence limits rest on the normal approximation, which needs samples large "
+    "enough for the skewness of what each stratum averages. Accounting populations with few, large "
+    "misstatements are where it fails: where its warnings fire, auditmean rests the verdict on a "
+    "finite-sample bound that holds under a stated assumption, and shows the normal limits for "
+    "information only. Read every warning and every stated assumption.",
 )
 
 

@@ -32,6 +32,7 @@ import html
 import math
 import numbers
 import secrets
+import textwrap
 from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass, field
 from typing import Any, ClassVar
@@ -48,8 +49,10 @@ from auditmean._records import (
     text_table,
 )
 from auditmean.amounts import parse_amounts
+from auditmean.core import bound_simulation as core_bound
 from auditmean.core import misstatement as core_ms
 from auditmean.core import simulation as core_sim
+from auditmean.core.choices import MAX_REPLICATIONS  # most replications one call accepts
 from auditmean.core.estimators import METHOD_NAMES, METHODS, minimum_items_for_variance
 from auditmean.core.flags import FLAG_CODES
 from auditmean.errors import InputError, MethodNotApplicable, ParameterError, spreadsheet_row
@@ -64,10 +67,8 @@ __all__ = [
     "CoverageResult",
     "simulate_coverage",
     "MAX_REPLICATIONS",
+    "BOUND_NAMES",
 ]
-
-#: Most replications one call accepts.
-MAX_REPLICATIONS = 100_000
 
 # Rounding allowance when totals are compared, relative to the sum of the
 # absolute book values: sums of a million values agree to about 1e-14.
@@ -571,6 +572,42 @@ def _seed_value(seed: object) -> int:
     return int(seed)
 
 
+def _check_run(
+    confidence: object,
+    tolerable: object,
+    expected: object,
+    seed: object,
+    fixed_population: object,
+    progress: object,
+) -> tuple[float, float | None, float | None, int]:
+    """Check the parameters every coverage check shares (either design), in this order.
+
+    Returns
+    -------
+    tuple
+        The confidence, the tolerable and expected misstatement (``None`` where not given) and
+        the seed (a new one where ``seed`` is ``None``).
+    """
+    conf = _finite("confidence", confidence)
+    if not (0.0 < conf < 1.0):
+        raise ParameterError("confidence", f"got {confidence!r}; it must lie strictly between 0 and 1 (e.g. 0.95)")
+    TM = None if tolerable is None else _finite("tolerable", tolerable)
+    if TM is not None and TM <= 0:
+        raise ParameterError("tolerable", f"got {tolerable!r}; the tolerable misstatement must be above 0")
+    EM = None if expected is None else _finite("expected", expected)
+    if EM is not None:
+        if TM is None:
+            raise ParameterError("expected", "the risk of incorrect rejection needs the tolerable misstatement too")
+        if not (0 <= EM < TM):
+            raise ParameterError("expected", f"got {expected!r}; it must be at least 0 and below tolerable ({TM:,.2f})")
+    seed_value = _seed_value(seed)
+    if not isinstance(fixed_population, bool):
+        raise ParameterError("fixed_population", f"got {fixed_population!r}; give True or False")
+    if progress is not None and not callable(progress):
+        raise ParameterError("progress", "give a function progress(done, total), or None")
+    return conf, TM, EM, seed_value
+
+
 def _choice(name: str, value: object, allowed: Sequence[str]) -> str:
     if not isinstance(value, str) or value not in allowed:
         raise ParameterError(name, f"got {value!r}; use one of {', '.join(repr(a) for a in allowed)}")
@@ -656,6 +693,30 @@ class CoverageResult(RecordMixin):
         ``keep_samples`` was asked for (``replication``, ``item`` = 0-based
         position in the population, ``stratum``, ``book_value``,
         ``audited_value``), else ``None``.
+    bounds:
+        The finite-sample bounds simulated (``"stratified_betting"``: the
+        bound of :func:`auditmean.overstatement_bound`), or ``()``.
+    by_bound:
+        One row per bound simulated (an empty table when none): ``bound``,
+        ``name``, ``replications``, ``coverage`` (one-sided: the upper bound
+        on overstatement is not below the population's true misstatement,
+        book total minus audited total) and ``coverage_mc_se``,
+        ``mean_upper`` (the average upper bound), ``acceptance_rate``,
+        ``risk_incorrect_acceptance`` (share of the populations scaled to
+        exactly tolerable whose bound is not above tolerable),
+        ``replications_at_tolerable``, ``outside_assumption_at_tolerable``
+        (populations left out of that risk because the scaling made an item
+        of a sampled stratum overstated by more than the stratum's largest
+        book value, outside the condition of the bound's guarantee),
+        ``risk_incorrect_rejection`` (share of the populations scaled to
+        expected whose bound is above tolerable),
+        ``replications_at_expected``, ``outside_assumption_at_expected``;
+        each rate with its Monte Carlo s.e. (``_mc_se``).
+    bound_upper, bound_covers, bound_accepts:
+        Per replication (rows) and bound (columns, as ``bounds``): the upper
+        bound on overstatement, whether it is not below the true
+        misstatement, and whether it is not above tolerable (``None``
+        without bounds; ``bound_accepts`` also without tolerable).
     """
 
     record_kind = "coverage_check"
@@ -693,6 +754,11 @@ class CoverageResult(RecordMixin):
     second_opinion_replicates: int = 0
     second_opinion: Mapping[str, np.ndarray] | None = field(repr=False, default=None)
     kept_samples: pd.DataFrame | None = field(repr=False, default=None)
+    bounds: tuple[str, ...] = ()
+    by_bound: pd.DataFrame | None = field(repr=False, default=None)
+    bound_upper: np.ndarray | None = field(repr=False, default=None)
+    bound_covers: np.ndarray | None = field(repr=False, default=None)
+    bound_accepts: np.ndarray | None = field(repr=False, default=None)
 
     # -- for programs
 
@@ -724,10 +790,7 @@ class CoverageResult(RecordMixin):
     # -- for people
 
     def _headline(self) -> str:
-        how = "one misstated population sampled again and again" if self.fixed_population else (
-            "a new misstated population for every replication"
-        )
-        done = f"{self.replications:,} of {self.replications_requested:,}" if self.partial else f"{self.replications:,}"
+        how, done = _how_and_done(self)
         n = int(self.strata["size"].sum())
         N = int(self.strata["count"].sum())
         return (
@@ -757,11 +820,7 @@ class CoverageResult(RecordMixin):
                 format_number(r.mean_std_error, 0),
                 format_number(r.error_sd, 0),
             ]
-            if has_tm:
-                row.append(_pct_se(r.risk_incorrect_acceptance, r.risk_incorrect_acceptance_mc_se))
-            if has_em:
-                row.append(_pct_se(r.risk_incorrect_rejection, r.risk_incorrect_rejection_mc_se))
-            rows.append(row)
+            rows.append(row + _risk_cells(r, has_tm, has_em))
         return header, rows
 
     def _second_opinion_rows(self) -> tuple[list[str], list[list[str]]]:
@@ -839,30 +898,115 @@ class CoverageResult(RecordMixin):
             )
         return lines
 
-    def summary(self) -> str:
-        header, rows = self._rows()
-        out = [
-            self._headline(), *self._context(), "", text_table(*self._strata_rows()), "", _TABLE_NOTE,
-            text_table(header, rows),
+    def _coverage_rows(self) -> tuple[list[str], list[list[str]]]:
+        """The estimators' coverage, narrow enough for 100 columns (the risks are in :meth:`_limit_rows`)."""
+        header = ["estimator", "two-sided", "one-sided", "bias", "average s.e.", "actual s.d."]
+        rows = [
+            [
+                METHOD_NAMES[r.estimator],
+                _pct_se(r.coverage, r.coverage_mc_se),
+                _pct_se(r.one_sided_coverage, r.one_sided_coverage_mc_se),
+                format_number(r.bias, 0),
+                format_number(r.mean_std_error, 0),
+                format_number(r.error_sd, 0),
+            ]
+            for r in self.by_estimator.itertuples(index=False)
         ]
+        return header, rows
+
+    def _limit_rows(self) -> tuple[list[str], list[list[str]]]:
+        """Every upper limit of misstatement side by side: the estimators' normal limits, then the bounds.
+
+        Columns: how often it holds (one-sided coverage of the true
+        misstatement), its average, and the risks of incorrect acceptance and
+        rejection where tolerable and expected were given.
+        """
+        has_tm = self.tolerable is not None
+        has_em = self.expected is not None
+        header = ["upper limit of misstatement", "holds", "average"]
+        header += ["acceptance"] if has_tm else []
+        header += ["rejection"] if has_em else []
+        rows = []
+        for j, r in enumerate(self.by_estimator.itertuples(index=False)):
+            with np.errstate(invalid="ignore"):
+                limits = self.book_total - self.lower_bound[:, j]
+            finite = limits[np.isfinite(limits)]
+            row = [
+                METHOD_NAMES[r.estimator],
+                _pct_se(r.one_sided_coverage, r.one_sided_coverage_mc_se),
+                format_number(float(finite.mean()) if finite.size else math.nan, 0),
+            ]
+            rows.append(row + _risk_cells(r, has_tm, has_em))
+        if self.by_bound is not None:
+            for r in self.by_bound.itertuples(index=False):
+                row = [r.name, _pct_se(r.coverage, r.coverage_mc_se), format_number(r.mean_upper, 0)]
+                rows.append(row + _risk_cells(r, has_tm, has_em))
+        return header, rows
+
+    def _limit_caption(self) -> str:
+        nominal = f"{self.confidence:.0%}"
+        text = (
+            "Upper limit of misstatement, side by side: each estimator's normal limit"
+            + (", then the bound that holds in finite samples" if self.bounds else "")
+            + f". holds: share of samples in which it was not below the true misstatement (nominal {nominal}); "
+            "average: its average"
+        )
+        if self.tolerable is not None:
+            text += (
+                f"; acceptance: risk of incorrect acceptance, the share accepted among populations misstated by "
+                f"exactly tolerable (nominal {1 - self.confidence:.0%})"
+            )
+        if self.expected is not None:
+            text += "; rejection: risk of incorrect rejection, the share rejected at the expected misstatement"
+        return text + "; +/- one Monte Carlo standard error."
+
+    def _flag_rows_by_warning(self) -> tuple[list[str], list[list[str]]]:
+        """The warnings' rates with one row per warning and one column per estimator (narrow)."""
+        fired = self.flag_rates[self.flag_rates["replications_flagged"] > 0]
+        codes = [c for c in FLAG_CODES if c in set(fired["flag"])]
+        header = ["warning", *self.estimators]
+        rows = []
+        for c in codes:
+            sub = self.flag_rates[self.flag_rates["flag"] == c].set_index("estimator")["rate"]
+            rows.append([c, *[(_percent1(sub[m]) if m in sub.index else "") for m in self.estimators]])
+        return header, rows
+
+    def _second_opinion_rows_narrow(self) -> tuple[list[str], list[list[str]]]:
+        header, rows = self._second_opinion_rows()
+        short = {"two-sided coverage": "two-sided", "one-sided coverage": "one-sided",
+                 "risk of incorrect acceptance": "acceptance", "risk of incorrect rejection": "rejection"}
+        return [short.get(h, h) for h in header], rows
+
+    def summary(self) -> str:
+        """The check in plain text, every line within 100 columns."""
+        def wrap(text: str, indent: str = "") -> list[str]:
+            # Never break right after a colon, so that "stratum: rate" pairs stay on one line.
+            lines = textwrap.wrap(text.replace(": ", ":\xa0"), width=_WIDTH, initial_indent=indent,
+                                  subsequent_indent=" " * len(indent) + "  ")
+            return [line.replace(":\xa0", ": ") for line in lines]
+
+        out = wrap(self._headline()) + _clause_lines(self._context(), wrap)
+        out += ["", text_table(*self._strata_rows()), ""]
+        out += wrap("Coverage of each estimator's limits, " + _TABLE_NOTE[0].lower() + _TABLE_NOTE[1:])
+        out.append(text_table(*self._coverage_rows()))
+        out += [""] + wrap(self._limit_caption()) + [text_table(*self._limit_rows())]
         if self.second_opinion is not None:
-            sh, sr = self._second_opinion_rows()
-            out += ["", self._second_opinion_caption(), text_table(sh, sr)]
-        fh, fr = self._flag_rows()
-        if len(fh) > 1:
+            out += [""] + wrap(self._second_opinion_caption()) + [text_table(*self._second_opinion_rows_narrow())]
+        fh, fr = self._flag_rows_by_warning()
+        if fr:
             out += ["", "Share of replications in which each warning was raised:", text_table(fh, fr)]
-        if self.notes:
-            out += ["", "Notes:"] + [f"  - {n}" for n in self.notes]
+        out += _notes_lines(self.notes, wrap)
         return "\n".join(out)
 
     def _html_body(self) -> str:
         esc = html.escape
         header, rows = self._rows()
-        parts = [f"<p><strong>{esc(self._headline())}</strong></p>"]
-        parts += [f"<p>{esc(line)}</p>" for line in self._context()]
+        parts = _html_opening(self)
         parts.append(html_table(*self._strata_rows(), caption="The design"))
         parts.append(html_table(header, rows, caption="Coverage and risks by estimator"))
         parts.append(f"<p>{esc(_TABLE_NOTE)}</p>")
+        parts.append(html_table(*self._limit_rows(), caption="Upper limit of misstatement, side by side"))
+        parts.append(f"<p>{esc(self._limit_caption())}</p>")
         if self.second_opinion is not None:
             sh, sr = self._second_opinion_rows()
             parts.append(html_table(sh, sr, caption=self._second_opinion_caption()))
@@ -900,6 +1044,8 @@ class CoverageResult(RecordMixin):
             "flag_rates_by_stratum": json_safe(self.flag_rates_by_stratum),
             "notes": list(self.notes),
             "second_opinion_replicates": self.second_opinion_replicates,
+            "bounds": list(self.bounds),
+            "by_bound": json_safe(self.by_bound) if self.by_bound is not None else [],
         }
         if include_replications:
             out["per_replication"] = {
@@ -927,13 +1073,72 @@ class CoverageResult(RecordMixin):
                     )
                     for name, arr in self.second_opinion.items()
                 }
+            if self.bounds and self.bound_upper is not None:
+                out["per_replication"]["bounds"] = {
+                    name: {b: json_safe(arr[:, j]) for j, b in enumerate(self.bounds)}
+                    for name, arr in (
+                        ("upper", self.bound_upper),
+                        ("covers", self.bound_covers),
+                        *((("accepts", self.bound_accepts),) if self.bound_accepts is not None else ()),
+                    )
+                }
         return out
 
+
+# Every line of the text summary fits in this many columns (the command line prints it).
+_WIDTH = 100
 
 _TABLE_NOTE = (
     "Shares of simulated samples, +/- one Monte Carlo standard error; the actual standard deviation is that "
     "of the estimates around the true total, which the average standard error should match."
 )
+
+
+def _how_and_done(check: Any) -> tuple[str, str]:
+    """How a coverage check (either design) drew its populations, and how many replications it ran."""
+    how = "one misstated population sampled again and again" if check.fixed_population else (
+        "a new misstated population for every replication"
+    )
+    done = f"{check.replications:,} of {check.replications_requested:,}" if check.partial else f"{check.replications:,}"
+    return how, done
+
+
+def _clause_lines(lines: Sequence[str], wrap: Callable[..., list[str]]) -> list[str]:
+    """``lines`` wrapped one clause a line (clauses are separated by "; "), so that no phrase is cut;
+    a line's later clauses are indented."""
+    out: list[str] = []
+    for line in lines:
+        clauses = line.split("; ")
+        out += wrap(clauses[0] + (";" if len(clauses) > 1 else ""))
+        for i, clause in enumerate(clauses[1:], start=2):
+            out += wrap(clause + (";" if i < len(clauses) else ""), "  ")
+    return out
+
+
+def _risk_cells(r: Any, has_tm: bool, has_em: bool) -> list[str]:
+    """A coverage table row's risks of incorrect acceptance (``has_tm``) and rejection (``has_em``),
+    either design, each +/- one Monte Carlo standard error."""
+    cells = []
+    if has_tm:
+        cells.append(_pct_se(r.risk_incorrect_acceptance, r.risk_incorrect_acceptance_mc_se))
+    if has_em:
+        cells.append(_pct_se(r.risk_incorrect_rejection, r.risk_incorrect_rejection_mc_se))
+    return cells
+
+
+def _notes_lines(notes: Sequence[str], wrap: Callable[..., list[str]]) -> list[str]:
+    """The notes of a coverage check (either design) in its plain-text summary; none, no lines."""
+    out = ["", "Notes:"] if notes else []
+    for n in notes:
+        out += wrap(n, "  - ")
+    return out
+
+
+def _html_opening(check: Any) -> list[str]:
+    """The headline and context paragraphs that open a coverage check's HTML (either design)."""
+    parts = [f"<p><strong>{html.escape(check._headline())}</strong></p>"]
+    parts += [f"<p>{html.escape(line)}</p>" for line in check._context()]
+    return parts
 
 
 def _pct_se(p: float, se: float) -> str:
@@ -944,6 +1149,184 @@ def _pct_se(p: float, se: float) -> str:
 
 def _percent1(p: float) -> str:
     return f"{100 * p:.1f}%"
+
+
+# --------------------------------------------------------------------------- the finite-sample bound
+
+#: Plain names of the bounds the coverage check can simulate for a stratified design.
+BOUND_NAMES = {"stratified_betting": "stratified betting bound"}
+
+
+def _bounds_choice(value: object) -> tuple[str, ...] | None:
+    """``bounds=`` as a tuple of names (``None``: every bound offered that applies)."""
+    if value is None:
+        return None
+    items = [value] if isinstance(value, str) else list(value) if isinstance(value, Sequence) else None
+    if items is None:
+        raise ParameterError(
+            "bounds", f"got {value!r}; give a bound's name, a list of names, () for none, or None for every "
+            f"bound offered ({', '.join(repr(b) for b in core_bound.BOUNDS)})",
+        )
+    for b in items:
+        _choice("bounds", b, core_bound.BOUNDS)
+    if len(set(items)) != len(items):
+        raise ParameterError("bounds", "a bound is listed twice")
+    return tuple(items)
+
+
+def _overstatement_taint_sup(model: MisstatementModel) -> tuple[float, float]:
+    """The largest overstatement taint the model can give an ordinary item, and a large item (0: none).
+
+    The supremum of the taint distribution: the fixed value, the upper end
+    of the uniform, 1 for the beta (whose draws lie below 1), the largest
+    observed taint; 0 when every misstated item is understated.
+    """
+    t = model.taint
+    if isinstance(t, ObservedTaints):
+        ordinary = max(max(t.values), 0.0)
+    elif model.understatement_share >= 1.0:
+        ordinary = 0.0
+    elif isinstance(t, FixedTaint):
+        ordinary = t.value
+    elif isinstance(t, UniformTaint):
+        ordinary = t.high
+    else:
+        ordinary = 1.0
+    large = 0.0
+    if model.large_items and model.large_item_probability > 0:
+        large = max(model.large_item_taint, 0.0)
+    return ordinary, large
+
+
+def _choose_bounds(value, design, rates, model, labels) -> tuple[tuple[str, ...], str | None]:
+    """The bounds to simulate, and the note saying why the default left one out.
+
+    A bound is refused (named) or left out (default) when a sampled stratum
+    holds negative book values, or when the model can overstate an item of
+    a sampled stratum by more than its book value (the largest taint of
+    :func:`_overstatement_taint_sup`).
+    """
+    requested = _bounds_choice(value)
+    sampled = ~design.full
+    ordinary_sup, large_sup = _overstatement_taint_sup(model)
+    sup = 0.0
+    for h in np.flatnonzero(sampled):
+        if rates[h] > 0 and design.counts[h] > design.n_large[h]:
+            sup = max(sup, ordinary_sup)
+        if design.n_large[h] > 0:
+            sup = max(sup, large_sup)
+    reason = remedy = None
+    for h in np.flatnonzero(sampled):
+        negative = int(np.sum(design.book[h] < 0))
+        if negative:
+            reason = (
+                f"stratum {labels[h]!r} is sampled and holds {negative:,} items with a book value below zero "
+                "(credit balances), whose audited values are below zero too; the bound assumes audited values "
+                "of at least zero"
+            )
+            remedy = "examine such a stratum in full (or put the credit balances in a stratum examined in full)"
+            break
+    if reason is None and sup > 1.0:
+        reason = (
+            f"the misstatement model can overstate an item of a sampled stratum by more than its book value "
+            f"(a taint of up to {_percent(sup)}); the bound assumes no item is overstated by more than its book "
+            "value (taint at most 100%, audited value at least zero)"
+        )
+        remedy = "model taints of at most 100%"
+    if requested is None:
+        if reason is not None:
+            return (), (
+                f"The finite-sample bound (stratified betting) was not simulated: {reason}. To simulate it, "
+                f"{remedy}."
+            )
+        return core_bound.BOUNDS, None
+    if requested and reason is not None:
+        raise ParameterError(
+            "bounds", f"the stratified betting bound cannot be simulated here: {reason}. {remedy.capitalize()}, "
+            "or leave the bound out (bounds=())",
+        )
+    return requested, None
+
+
+def _with_bounds(result: CoverageResult, out, settings, design, note: str | None) -> CoverageResult:
+    """``result`` with the bounds' table, per-replication arrays and notes."""
+    from dataclasses import replace
+
+    names = settings.bounds
+    notes = list(result.notes)
+    if note:
+        notes.append(note)
+    columns = ["bound", "name", "replications", "coverage", "coverage_mc_se", "mean_upper"]
+    if settings.tolerable is not None:
+        columns += ["acceptance_rate", "acceptance_rate_mc_se", "risk_incorrect_acceptance",
+                    "risk_incorrect_acceptance_mc_se", "replications_at_tolerable", "outside_assumption_at_tolerable"]
+    if settings.expected is not None:
+        columns += ["risk_incorrect_rejection", "risk_incorrect_rejection_mc_se", "replications_at_expected",
+                    "outside_assumption_at_expected"]
+    if not names or out.bounds is None:
+        return replace(result, notes=tuple(notes), by_bound=pd.DataFrame(columns=columns))
+    b = out.bounds
+    R = out.completed
+    rows = []
+    inside, outside = {}, {}
+    for name, usable in (("tolerable", out.usable_at_tolerable), ("expected", out.usable_at_expected)):
+        if usable is not None:
+            inside[name] = usable & b["within_at_" + name]
+            outside[name] = int(np.sum(usable & ~b["within_at_" + name]))
+    for j, name in enumerate(names):
+        cov, cov_se, n = _rate(b["covers"][:, j])
+        row = {"bound": name, "name": BOUND_NAMES[name], "replications": n, "coverage": cov,
+               "coverage_mc_se": cov_se, "mean_upper": float(b["upper"][:, j].mean()) if R else math.nan}
+        if "accepts" in b:
+            acc, acc_se, _ = _rate(b["accepts"][:, j])
+            ria, ria_se, n_tm = _rate(b["accepts_at_tolerable"][inside["tolerable"], j])
+            row.update(acceptance_rate=acc, acceptance_rate_mc_se=acc_se, risk_incorrect_acceptance=ria,
+                       risk_incorrect_acceptance_mc_se=ria_se, replications_at_tolerable=n_tm,
+                       outside_assumption_at_tolerable=outside["tolerable"])
+        if "accepts_at_expected" in b:
+            rir, rir_se, n_em = _rate(~b["accepts_at_expected"][inside["expected"], j])
+            row.update(risk_incorrect_rejection=rir, risk_incorrect_rejection_mc_se=rir_se,
+                       replications_at_expected=n_em, outside_assumption_at_expected=outside["expected"])
+        rows.append(row)
+    for name, k in outside.items():
+        if k:
+            rest = int(np.sum(getattr(out, "usable_at_" + name))) - k
+            notes.append(
+                f"At {name} misstatement {k:,} of {R:,} scaled populations had an item of a sampled stratum "
+                "overstated by more than the stratum's largest book value (taints multiplied by the scaling "
+                "factor), outside the condition the finite-sample bound's guarantee needs (audited values of at "
+                f"least zero ensure it); they are left out of the bound's risk at {name}"
+                + (f", which rests on the other {rest:,}," if rest else "")
+                + " and kept in the estimators'."
+                + (
+                    f" No population misstated by exactly {name} in this pattern stays within that condition, "
+                    "so the bound's risk cannot be measured there (within it, its guarantee keeps the risk of "
+                    f"incorrect acceptance at most {_percent(1 - settings.confidence)}); model more misstated "
+                    "items with smaller taints to measure it."
+                    if not rest and name == "tolerable" else ""
+                )
+            )
+    notes.append(
+        "The finite-sample bound was computed on every simulated sample as auditmean.overstatement_bound "
+        "computes it, each stratum's largest book value taken from the population; it bounds the "
+        "overstatement (understatements count as zero in sampled strata), and is compared here with the net "
+        "misstatement, book total minus audited total."
+    )
+
+    def frozen(a):
+        a = np.array(a)
+        a.setflags(write=False)
+        return a
+
+    return replace(
+        result,
+        notes=tuple(notes),
+        bounds=tuple(names),
+        by_bound=pd.DataFrame(rows, columns=columns),
+        bound_upper=frozen(b["upper"]),
+        bound_covers=frozen(b["covers"]),
+        bound_accepts=frozen(b["accepts"]) if "accepts" in b else None,
+    )
 
 
 # --------------------------------------------------------------------------- the entry point
@@ -969,6 +1352,7 @@ def simulate_coverage(
     keep_samples: int = 0,
     second_opinion: bool = False,
     second_opinion_replicates: int = 2000,
+    bounds: str | Sequence[str] | None = None,
 ) -> CoverageResult:
     """Simulate the planned stratified sample on the population's own book values.
 
@@ -1035,6 +1419,23 @@ def simulate_coverage(
         bootstrap is run once per replication, estimator and scenario
         (about 20 ms each with 1,000 replicates on a sample of 400 items),
         so use few replications and estimators.
+    bounds:
+        The bounds that hold in finite samples to simulate beside the
+        estimators' normal limits: ``"stratified_betting"``, the bound of
+        :func:`auditmean.overstatement_bound` (stratum-wise betting tests for
+        sampling without replacement combined by a union-intersection test),
+        computed on every simulated sample. ``None`` (default): every bound
+        offered whose assumption the
+        model and the population meet (a note says why one is left out);
+        ``()``: none. The bound assumes that no item of a sampled stratum is
+        overstated by more than its book value, so a named bound is refused
+        (ParameterError) when a sampled stratum holds book values below zero
+        (credit balances: their audited values are below zero too) or when
+        the model can overstate an item of a sampled stratum by more than its
+        book value (a taint above 100%). Understatements are allowed. Each
+        stratum's largest book value, which the bound needs, is taken from
+        the population. See :mod:`auditmean.core.bound_simulation`; the
+        results are in ``CoverageResult.by_bound``.
 
     Returns
     -------
@@ -1060,23 +1461,7 @@ def simulate_coverage(
     ):
         raise ParameterError("replications", f"got {replications!r}; give a whole number from 1 to {MAX_REPLICATIONS:,}")
     R = int(replications)
-    conf = _finite("confidence", confidence)
-    if not (0.0 < conf < 1.0):
-        raise ParameterError("confidence", f"got {confidence!r}; it must lie strictly between 0 and 1 (e.g. 0.95)")
-    TM = None if tolerable is None else _finite("tolerable", tolerable)
-    if TM is not None and TM <= 0:
-        raise ParameterError("tolerable", f"got {tolerable!r}; the tolerable misstatement must be above 0")
-    EM = None if expected is None else _finite("expected", expected)
-    if EM is not None:
-        if TM is None:
-            raise ParameterError("expected", "the risk of incorrect rejection needs the tolerable misstatement too")
-        if not (0 <= EM < TM):
-            raise ParameterError("expected", f"got {expected!r}; it must be at least 0 and below tolerable ({TM:,.2f})")
-    seed_value = _seed_value(seed)
-    if not isinstance(fixed_population, bool):
-        raise ParameterError("fixed_population", f"got {fixed_population!r}; give True or False")
-    if progress is not None and not callable(progress):
-        raise ParameterError("progress", "give a function progress(done, total), or None")
+    conf, TM, EM, seed_value = _check_run(confidence, tolerable, expected, seed, fixed_population, progress)
     _choice("distribution", distribution, ("normal", "t"))
     _choice("ratio_variance", ratio_variance, ("sample_book_mean", "population_book_mean"))
     _choice("single_item", single_item, ("average", "zero", "error"))
@@ -1158,9 +1543,9 @@ def simulate_coverage(
 
     items_h, book_h, n_large = [], [], np.zeros(H, dtype=np.int64)
     by_code = np.argsort(codes, kind="stable")
-    bounds = np.concatenate([[0], np.cumsum(counts)])
+    edges = np.concatenate([[0], np.cumsum(counts)])
     for h in range(H):
-        members = by_code[bounds[h]: bounds[h + 1]]
+        members = by_code[edges[h]: edges[h + 1]]
         ordinary = members[~is_large[members]]
         big = members[is_large[members]]
         big = big[np.argsort(large_rank[big])]
@@ -1177,7 +1562,9 @@ def simulate_coverage(
         items=tuple(items_h),
         n_large=n_large,
         rounding=_ROUNDING_RTOL * float(np.sum(np.abs(book))),
+        largest=np.array([float(np.max(b)) if b.size else 0.0 for b in book_h]),
     )
+    chosen, bound_note = _choose_bounds(bounds, design, rates, model, order_labels)
     settings = core_sim.Settings(
         methods=methods,
         confidence=conf,
@@ -1187,6 +1574,7 @@ def simulate_coverage(
         tolerable=TM,
         expected=EM,
         second_opinion_replicates=boot,
+        bounds=chosen,
     )
     item_rates = rates[codes]
     expected_mis = core_ms.expected_misstatement(
@@ -1204,7 +1592,8 @@ def simulate_coverage(
             design, settings, R, seed_value, process=model._process(rates), progress=progress, keep=keep
         )
 
-    return _result(out, design, settings, model, order_labels, rates, seed_value, fixed_population, expected_mis)
+    result = _result(out, design, settings, model, order_labels, rates, seed_value, fixed_population, expected_mis)
+    return _with_bounds(result, out, settings, design, bound_note)
 
 
 def _rate(flags: np.ndarray) -> tuple[float, float, int]:

@@ -10,6 +10,13 @@ Layout of the folder (all text is UTF-8; JSON files carry ``schema_version``)::
                          sizes per stratum, the selected items with key and order
     selection.csv        the same items as a table for people (item_id,
                          stratum, key, order)
+                         (a monetary-unit selection, kind
+                         "monetary_unit_selection", holds instead the
+                         sample size in monetary units and the positive book
+                         total in cents, and per item book_value, hits,
+                         examined_in_full, units, unit_from, unit_to; its
+                         copy has those columns and a ``stratum`` column
+                         grouping the items "in full" and "by units")
     results_log.jsonl    every results entry ever made, one JSON object a line;
                          the current results are rebuilt from it
     results.csv          the current audited values as a table for people
@@ -54,11 +61,24 @@ import pandas as pd
 from auditmean._atomic import is_temporary, json_text, write_bytes_atomic, write_text_atomic
 from auditmean._records import SCHEMA_VERSION, RecordMixin, json_safe, text_table
 from auditmean._version import __version__
-from auditmean.errors import AuditMeanError, InputError, ParameterError, RecordError
+from auditmean.errors import (
+    AuditMeanError,
+    InputError,
+    ParameterError,
+    RecordError,
+    spreadsheet_row,
+)
 from auditmean.results import Results, SampleFrame, record_results_file, sample_frame
 from auditmean.selection import _check_seed, _sorted_labels, item_keys, verify_selection
 
-__all__ = ["Engagement", "EngagementStatus", "population_fingerprint", "FILES"]
+__all__ = [
+    "Engagement",
+    "EngagementStatus",
+    "population_fingerprint",
+    "FILES",
+    "MONETARY_UNIT_GROUPS",
+    "MONETARY_UNIT_SELECTION_KIND",
+]
 
 #: File names inside an engagement folder.
 FILES = {
@@ -73,6 +93,25 @@ FILES = {
 }
 
 _SELECTION_COPY_COLUMNS = ("item_id", "stratum", "key", "order")
+
+#: Kind of the selection record of a monetary-unit design (``selection.json``).
+MONETARY_UNIT_SELECTION_KIND = "monetary_unit_selection"
+#: The ``stratum``-like groups of a monetary-unit selection: items examined in
+#: full (book value at or above the sampling interval), and the rest, reached
+#: by the monetary units drawn.
+MONETARY_UNIT_GROUPS = ("in full", "by units")
+#: Per-item fields of a monetary-unit selection record, in this order.
+_MONETARY_UNIT_ITEM_FIELDS = ("item_id", "book_value", "hits", "examined_in_full", "units", "unit_from", "unit_to")
+_MONETARY_UNIT_COPY_COLUMNS = (
+    "item_id",
+    "stratum",
+    "book_value",
+    "hits",
+    "examined_in_full",
+    "units",
+    "unit_from",
+    "unit_to",
+)
 _RESULTS_COPY_COLUMNS = (
     "item_id",
     "stratum",
@@ -408,16 +447,28 @@ class Engagement:
     # ------------------------------------------------------------------ selection
 
     def selection_record(self) -> dict[str, Any] | None:
-        """The content of ``selection.json`` (seed, sizes, items), or None."""
+        """The content of ``selection.json`` (seed, sizes or sample size, items), or None.
+
+        The record is checked against its own rule before it is returned
+        (keys and orders from the seed; for a monetary-unit selection, every
+        draw recomputed from the seed and found in the item recorded for it).
+        """
         path = self._path("selection")
         if not path.exists():
             return None
         rec = _read_json(path)
-        _check_selection_record(path, rec)
+        if rec.get("kind") == MONETARY_UNIT_SELECTION_KIND:
+            _check_monetary_unit_record(path, rec)
+        else:
+            _check_selection_record(path, rec)
         return rec
 
     def selection(self) -> pd.DataFrame | None:
         """The saved selection (``item_id``, ``stratum``, ``key``, ``key_int``, ``order``), or None.
+
+        A monetary-unit selection has instead the columns ``item_id``,
+        ``stratum`` (one of :data:`MONETARY_UNIT_GROUPS`), ``book_value``,
+        ``hits``, ``examined_in_full``, ``units``, ``unit_from``, ``unit_to``.
 
         ``selection.csv`` is checked against the record; a copy that differs
         raises :class:`RecordError` naming it.
@@ -435,9 +486,11 @@ class Engagement:
         return None if rec is None else rec["seed"]
 
     def sizes(self) -> dict[Any, int] | None:
-        """The saved selection's sample size per stratum, or None."""
+        """The saved selection's sample size per stratum, or None (also for a monetary-unit selection)."""
         rec = self.selection_record()
-        return None if rec is None else {s["stratum"]: int(s["n"]) for s in rec["sizes"]}
+        if rec is None or rec.get("kind") == MONETARY_UNIT_SELECTION_KIND:
+            return None
+        return {s["stratum"]: int(s["n"]) for s in rec["sizes"]}
 
     def save_selection(
         self,
@@ -468,6 +521,10 @@ class Engagement:
         """
         self._preflight()
         path = self._path("selection")
+        if path.exists() and _read_json(path).get("kind") == MONETARY_UNIT_SELECTION_KIND:
+            raise RecordError(
+                str(path), "a monetary-unit selection is saved; a stratified selection cannot replace it"
+            )
         seed = _check_seed(seed)  # the same rules as select()
         if not isinstance(sizes, Mapping):
             raise ParameterError("sizes", f"must be a mapping stratum -> sample size, got {type(sizes).__name__}")
@@ -575,8 +632,156 @@ class Engagement:
 
     @staticmethod
     def _selection_copy_bytes(df: pd.DataFrame) -> bytes:
+        if "hits" in df.columns:  # a monetary-unit selection
+            rows = [[_plain(v) for v in r] for r in df[list(_MONETARY_UNIT_COPY_COLUMNS)].itertuples(index=False)]
+            return _csv_bytes(rows, _MONETARY_UNIT_COPY_COLUMNS)
         rows = [[r.item_id, r.stratum, r.key, int(r.order)] for r in df.itertuples(index=False)]
         return _csv_bytes(rows, _SELECTION_COPY_COLUMNS)
+
+    def save_monetary_unit_selection(
+        self,
+        selection: pd.DataFrame,
+        seed: str,
+        sample_size: int,
+        *,
+        items: pd.DataFrame | None = None,
+    ) -> Path:
+        """Save a selection made by :func:`auditmean.select_monetary_units` with ``seed`` and ``sample_size``.
+
+        Parameters
+        ----------
+        selection:
+            As ``select_monetary_units`` (or ``extend_monetary_units``)
+            returns it: columns ``item_id``, ``book_value``, ``hits``,
+            ``examined_in_full``, ``units``, ``unit_from``, ``unit_to``, and
+            ``attrs["monetary_units"]`` with at least ``book_total_cents``.
+        seed, sample_size:
+            As passed to the selection; saved exactly.
+        items:
+            The items selected from (``item_id``, ``book_value``). If given,
+            the selection is re-performed from them
+            (:func:`auditmean.verify_monetary_units`) and must match.
+            Either way each recorded draw is recomputed from the seed and
+            must fall in the item recorded for it (see
+            :func:`_check_monetary_unit_rows`).
+
+        A selection can be saved again only with the same seed and at least
+        the same sample size, keeping every earlier item and every earlier
+        draw (draws 1..n are the same for any larger size), so that results
+        already entered stay valid.
+        """
+        self._preflight()
+        path = self._path("selection")
+        seed = _check_seed(seed)
+        if isinstance(sample_size, bool) or not isinstance(_plain(sample_size), int) or int(sample_size) < 1:
+            raise ParameterError("sample_size", f"must be a whole number of monetary units, at least 1, got {sample_size!r}")
+        n = int(sample_size)
+        if not isinstance(selection, pd.DataFrame):
+            raise InputError(f"expected a pandas DataFrame, got {type(selection).__name__}", table="selection")
+        missing = [c for c in _MONETARY_UNIT_ITEM_FIELDS if c not in selection.columns]
+        if missing:
+            raise InputError(f"missing columns {', '.join(map(repr, missing))}", table="selection", column=missing[0])
+        info = dict(selection.attrs.get("monetary_units") or {})
+        total_cents = info.get("book_total_cents")
+        if isinstance(total_cents, bool) or not isinstance(_plain(total_cents), int):
+            raise InputError(
+                "has no positive book total in cents (attrs['monetary_units']['book_total_cents']); "
+                "save the table select_monetary_units returned",
+                table="selection",
+            )
+        total_cents = int(total_cents)
+        rows = []
+        for r in selection[list(_MONETARY_UNIT_ITEM_FIELDS)].itertuples(index=False):
+            rows.append(
+                {
+                    "item_id": _plain(r.item_id),
+                    "book_value": float(r.book_value),
+                    "hits": _plain(r.hits),
+                    "examined_in_full": _plain(r.examined_in_full),
+                    "units": "" if r.units is None or (isinstance(r.units, float) and math.isnan(r.units)) else r.units,
+                    "unit_from": _plain(r.unit_from),
+                    "unit_to": _plain(r.unit_to),
+                }
+            )
+        rows.sort(key=lambda e: e["item_id"] if isinstance(e["item_id"], str) else "")
+        _check_monetary_unit_rows(rows, seed, n, total_cents)
+        verified = False
+        if items is not None:
+            from auditmean.monetary_selection import verify_monetary_units
+
+            check = verify_monetary_units(items, selection, seed)
+            if not check.match:
+                raise InputError(
+                    "is not what the seed and sample size give from the population:\n" + check.summary(),
+                    table="selection",
+                )
+            verified = True
+
+        previous = self.selection_record()
+        history: list[dict[str, Any]] = []
+        if previous is not None:
+            if previous.get("kind") != MONETARY_UNIT_SELECTION_KIND:
+                raise RecordError(str(path), "a stratified selection is saved; a monetary-unit selection cannot replace it")
+            if previous["seed"] != seed:
+                raise RecordError(
+                    str(path), "a selection with another seed is saved; only an extension of it can be saved"
+                )
+            old_n = int(previous["sample_size"])
+            if n < old_n or int(previous["book_total_cents"]) != total_cents:
+                raise RecordError(
+                    str(path),
+                    f"the saved selection has {old_n:,} monetary units of a positive book total of "
+                    f"{int(previous['book_total_cents']):,} cents; only a larger sample of the same total "
+                    f"can replace it (given {n:,} units, {total_cents:,} cents)",
+                )
+            new_by_id = {e["item_id"]: e for e in rows}
+            for e in previous["items"]:
+                now = new_by_id.get(e["item_id"])
+                kept = now is not None and [u for u in _unit_numbers(now["units"]) if u <= old_n] == _unit_numbers(e["units"])
+                if not kept:
+                    raise RecordError(
+                        str(path),
+                        "the new selection does not keep every saved item with its draws "
+                        f"(e.g. {e['item_id']!r}); only an extension can replace it",
+                    )
+            history = previous.get("history", []) + [
+                {"saved_at": previous["saved_at"], "sample_size": old_n, "n_items": len(previous["items"])}
+            ]
+        credits = info.get("credits") if isinstance(info.get("credits"), Mapping) else {}
+        zeros = info.get("zeros") if isinstance(info.get("zeros"), Mapping) else {}
+        record = {
+            "schema_version": SCHEMA_VERSION,
+            "kind": MONETARY_UNIT_SELECTION_KIND,
+            "saved_at": _now(),
+            "seed": seed,
+            "sample_size": n,
+            "book_total_cents": total_cents,
+            "book_total": total_cents / 100,
+            "interval": total_cents / n / 100,
+            "rule": info.get("rule") or _MONETARY_UNIT_RULE,
+            "verified_against_population": verified,
+            "population_content_sha256": self._info["population"]["content_sha256"],
+            "n_items": len(rows),
+            "examined_in_full": sum(1 for e in rows if e["examined_in_full"]),
+            "credits": {"count": _plain(credits.get("count")), "total": _plain(credits.get("total"))},
+            "zeros": {"count": _plain(zeros.get("count"))},
+            "items": rows,
+            "history": history,
+        }
+        write_text_atomic(path, json_text(record))
+        df = _selection_frame(record)
+        write_bytes_atomic(self._path("selection_copy"), self._selection_copy_bytes(df))
+        if self._path("results_log").exists():
+            write_bytes_atomic(self._path("results_copy"), self._results_copy_bytes(self._results_from(df)))
+        self._log(
+            "selection extended" if previous is not None else "selection saved",
+            seed=seed,
+            design="monetary_unit",
+            sample_size=n,
+            n_items=len(rows),
+            verified_against_population=verified,
+        )
+        return path
 
     def _check_copy(self, key: str, expected: bytes) -> None:
         path = self._path(key)
@@ -849,7 +1054,15 @@ class Engagement:
             steps.append(("results", False, "-"))
         else:
             rec = self.selection_record()
-            steps.append(("selection", True, f"{len(sel)} items, seed {rec['seed']!r}"))
+            if rec.get("kind") == MONETARY_UNIT_SELECTION_KIND:
+                steps.append((
+                    "selection",
+                    True,
+                    f"{len(sel)} items ({int(rec['sample_size']):,} monetary units, "
+                    f"{int(rec['examined_in_full'])} examined in full), seed {rec['seed']!r}",
+                ))
+            else:
+                steps.append(("selection", True, f"{len(sel)} items, seed {rec['seed']!r}"))
             res = self.results()
             n_done = len(res.current)
             steps.append(("results", n_done == len(sel), f"{n_done} of {len(sel)} items have an audited value"))
@@ -994,6 +1207,8 @@ def _copy_entry_total(raw: bytes) -> int | None:
 
 
 def _selection_frame(rec: dict[str, Any]) -> pd.DataFrame:
+    if rec.get("kind") == MONETARY_UNIT_SELECTION_KIND:
+        return _monetary_unit_frame(rec)
     df = pd.DataFrame(rec["items"], columns=list(_SELECTION_COPY_COLUMNS))
     df["item_id"] = df["item_id"].astype(object)
     df["stratum"] = df["stratum"].astype(object)
@@ -1002,3 +1217,183 @@ def _selection_frame(rec: dict[str, Any]) -> pd.DataFrame:
     df["order"] = df["order"].astype(np.int64)
     df = df[["item_id", "stratum", "key", "key_int", "order"]]
     return df.reset_index(drop=True)
+
+
+# ---------------------------------------------------------------------------
+# monetary-unit selections
+
+#: The selection rule, as recorded when the selection itself does not state it.
+_MONETARY_UNIT_RULE = (
+    "positive items in item-id order, cumulative book value in cents C_i; draw k = 1..n: "
+    "u_k = first 13 hex digits of SHA-256(UTF-8(seed + ':unit:' + k)), point "
+    "p_k = floor(u_k * B / 2^52), the item with C_(i-1) <= p_k < C_i; items with "
+    "cents * n >= B examined in full"
+)
+
+
+def _unit_numbers(text: Any) -> list[int]:
+    """The draw numbers of a ``units`` text ("3 17 40" -> [3, 17, 40]); [] for ""; ValueError otherwise."""
+    if not isinstance(text, str):
+        raise ValueError("units must be text")
+    parts = text.split(" ") if text else []
+    if any(not p.isdigit() or not p.isascii() or (len(p) > 1 and p[0] == "0") for p in parts):
+        raise ValueError(f"units {text!r} are not whole numbers separated by single spaces")
+    return [int(p) for p in parts]
+
+
+def _unit_points(seed: str, n: int, total_cents: int) -> list[int]:
+    """The point in cents of each draw 1..n (the rule in :data:`_MONETARY_UNIT_RULE`)."""
+    prefix = seed + ":unit:"
+    out = []
+    for k in range(1, n + 1):
+        u = int(hashlib.sha256((prefix + str(k)).encode("utf-8")).hexdigest()[:13], 16)
+        out.append((u * total_cents) >> 52)  # floor(u * B / 2**52), exact integer arithmetic
+    return out
+
+
+def _check_monetary_unit_rows(rows: list[dict[str, Any]], seed: str, n: int, total_cents: int) -> None:
+    """Re-derive what a monetary-unit selection can be checked against without the population.
+
+    ``rows`` are the items as recorded (sorted by item id). Raises
+    :class:`InputError` (``table="selection"``; rows as in ``selection.csv``)
+    when: an id is not text or repeated; a field has the wrong type; an
+    item's range ``unit_to - unit_from`` is not its book value in cents, or
+    ranges overlap or leave ``[0, B)``; ``examined_in_full`` differs from
+    ``cents * n >= B``; ``units`` does not list ``hits`` ascending draw
+    numbers; the draws do not partition ``1..n`` (so the hits sum to n); or a
+    draw recomputed from the seed does not fall in the range of the item that
+    lists it.
+    """
+    if isinstance(n, bool) or not isinstance(n, int) or n < 1:
+        raise InputError(f"the sample size must be a whole number of at least 1, got {n!r}", table="selection")
+    if isinstance(total_cents, bool) or not isinstance(total_cents, int) or total_cents < n:
+        raise InputError(
+            f"the positive book total in cents ({total_cents!r}) must be a whole number of at least the "
+            f"sample size ({n})",
+            table="selection",
+        )
+
+    def bad(message: str, column: str, positions: list[int]) -> InputError:
+        return InputError(message, table="selection", column=column, rows=[spreadsheet_row(i) for i in positions])
+
+    def typed(col: str, ok) -> None:
+        wrong = [i for i, e in enumerate(rows) if not ok(e.get(col))]
+        if wrong:
+            raise bad(f"{col} has values of the wrong type", col, wrong)
+
+    def whole(v: Any) -> bool:
+        return isinstance(v, int) and not isinstance(v, bool)
+
+    typed("item_id", lambda v: isinstance(v, str) and v.strip() != "")
+    typed("book_value", lambda v: isinstance(v, (int, float)) and not isinstance(v, bool) and math.isfinite(v))
+    typed("hits", lambda v: whole(v) and v >= 0)
+    typed("examined_in_full", lambda v: isinstance(v, bool))
+    typed("units", lambda v: isinstance(v, str))
+    typed("unit_from", whole)
+    typed("unit_to", whole)
+    ids = [e["item_id"] for e in rows]
+    seen: dict[str, int] = {}
+    dup = []
+    for i, v in enumerate(ids):
+        if v in seen:
+            dup += [seen[v], i]
+        seen.setdefault(v, i)
+    if dup:
+        raise bad("an item is listed more than once", "item_id", sorted(set(dup)))
+    cents = [round(e["book_value"] * 100) for e in rows]
+    wrong = [i for i, e in enumerate(rows) if cents[i] <= 0 or e["unit_to"] - e["unit_from"] != cents[i]]
+    if wrong:
+        raise bad("the range unit_from..unit_to is not the item's (positive) book value in cents", "unit_to", wrong)
+    prev_to = 0
+    for i, e in enumerate(rows):
+        if e["unit_from"] < prev_to or e["unit_to"] > total_cents:
+            raise bad(
+                "the items' ranges overlap, are out of item-id order or pass the positive book total",
+                "unit_from",
+                [i],
+            )
+        prev_to = e["unit_to"]
+    wrong = [i for i, e in enumerate(rows) if e["examined_in_full"] != (cents[i] * n >= total_cents)]
+    if wrong:
+        raise bad(
+            "examined_in_full does not follow the rule (book value in cents x n >= positive book total in cents)",
+            "examined_in_full",
+            wrong,
+        )
+    owner: dict[int, int] = {}
+    for i, e in enumerate(rows):
+        try:
+            units = _unit_numbers(e["units"])
+        except ValueError as exc:
+            raise bad(str(exc), "units", [i]) from None
+        if len(units) != e["hits"] or units != sorted(set(units)):
+            raise bad("units must list as many different draw numbers as hits, ascending", "units", [i])
+        if not units and not e["examined_in_full"]:
+            raise bad("an item neither hit by a draw nor examined in full is not selected", "hits", [i])
+        for u in units:
+            if u < 1 or u > n or u in owner:
+                raise bad(f"draw {u} is outside 1..{n} or listed for two items", "units", sorted({i, owner.get(u, i)}))
+            owner[u] = i
+    if len(owner) != n:
+        absent = [k for k in range(1, n + 1) if k not in owner][:5]
+        raise InputError(
+            f"the hits add up to {len(owner)}, not the sample size {n}: draws {absent} are not listed",
+            table="selection",
+            column="hits",
+        )
+    points = _unit_points(seed, n, total_cents)
+    off = sorted({i for k, i in owner.items() if not rows[i]["unit_from"] <= points[k - 1] < rows[i]["unit_to"]})
+    if off:
+        raise bad(
+            "draws recomputed from the seed do not fall in the items that list them "
+            "(SHA-256 rule of the selection)",
+            "units",
+            off,
+        )
+
+
+def _check_monetary_unit_record(path: Path, rec: dict[str, Any]) -> None:
+    problems = []
+    if not isinstance(rec.get("seed"), str) or not rec["seed"]:
+        problems.append("no seed")
+    for name in ("sample_size", "book_total_cents"):
+        v = rec.get(name)
+        if isinstance(v, bool) or not isinstance(v, int):
+            problems.append(f"no {name} (a whole number)")
+    items = rec.get("items")
+    if not isinstance(items, list) or not all(
+        isinstance(i, dict) and all(k in i for k in _MONETARY_UNIT_ITEM_FIELDS) for i in items
+    ):
+        problems.append("items are not a list of {" + ", ".join(_MONETARY_UNIT_ITEM_FIELDS) + "}")
+    if not isinstance(rec.get("saved_at"), str):
+        problems.append("no saved_at")
+    if problems:
+        raise RecordError(str(path), "not a valid selection record: " + "; ".join(problems) + "; nothing was changed")
+    ids = [i["item_id"] for i in items]
+    if any(not isinstance(v, str) for v in ids) or ids != sorted(ids):
+        raise RecordError(str(path), "the items are not listed in item-id order; nothing was changed")
+    try:
+        _check_monetary_unit_rows(items, rec["seed"], rec["sample_size"], rec["book_total_cents"])
+    except InputError as exc:
+        where = f" (item {items[exc.rows[0] - 2]['item_id']!r})" if exc.rows and exc.rows[0] - 2 < len(items) else ""
+        raise RecordError(
+            str(path), f"the saved selection does not follow its own seed: {exc.reason}{where}; nothing was changed"
+        ) from None
+
+
+def _monetary_unit_frame(rec: dict[str, Any]) -> pd.DataFrame:
+    df = pd.DataFrame(rec["items"], columns=list(_MONETARY_UNIT_ITEM_FIELDS))
+    out = pd.DataFrame(
+        {
+            "item_id": df["item_id"].astype(object),
+            "stratum": np.where(df["examined_in_full"].to_numpy(dtype=bool), *MONETARY_UNIT_GROUPS).astype(object),
+            "book_value": df["book_value"].to_numpy(dtype=np.float64),
+            "hits": df["hits"].to_numpy(dtype=np.int64),
+            "examined_in_full": df["examined_in_full"].to_numpy(dtype=bool),
+            "units": df["units"].astype(object),
+            "unit_from": df["unit_from"].to_numpy(dtype=np.int64),
+            "unit_to": df["unit_to"].to_numpy(dtype=np.int64),
+        }
+    )
+    return out.reset_index(drop=True)
+

@@ -47,7 +47,11 @@ __all__ = [
 #: Estimation methods a plan can be made for.
 ESTIMATION_METHODS = ("mpu", "difference", "ratio")
 
-PLAN_COLUMNS = ("stratum", "count", "book_total", "std_dev", "size", "take_all", "skewness")
+PLAN_COLUMNS = ("stratum", "count", "book_total", "std_dev", "size", "take_all", "skewness", "minimum")
+
+#: ``plan_sample(minimum=CHECKS_MINIMUM)``: each stratum's minimum is the smallest size that passes
+#: the normal-approximation checks (:func:`auditmean.core.normality.size_passing_checks`).
+CHECKS_MINIMUM = "checks"
 
 _TOP_KIND = "top"
 
@@ -332,7 +336,9 @@ class Plan(RecordMixin):
     allocation:
         ``"neyman"``, ``"proportional"`` or ``"equal"``.
     minimum:
-        Fewest items per sampled stratum.
+        Fewest items per sampled stratum: a whole number, or ``"checks"``
+        (each stratum's own minimum from the normal-approximation checks,
+        in ``table["minimum"]``).
     tolerable, expected:
         Tolerable and expected misstatement.
     risk_incorrect_acceptance, risk_incorrect_rejection:
@@ -358,7 +364,8 @@ class Plan(RecordMixin):
     table:
         One row per stratum: ``stratum``, ``count``, ``book_total``,
         ``std_dev`` (the one used for sizing), ``size``, ``take_all``
-        (examined in full), ``skewness`` (of the book values).
+        (examined in full), ``skewness`` (of the book values), ``minimum``
+        (the fewest items the stratum was allowed).
     total_size:
         Items to examine in all (the sum of ``table["size"]``).
     population_count, book_total:
@@ -375,7 +382,7 @@ class Plan(RecordMixin):
 
     method: str
     allocation: str
-    minimum: int
+    minimum: int | str
     tolerable: float
     expected: float
     risk_incorrect_acceptance: float
@@ -431,13 +438,15 @@ class Plan(RecordMixin):
                     "size": table["size"].astype(np.int64),
                     "take_all": table["take_all"].astype(bool),
                     "skewness": _floats(table["skewness"]),
+                    # plans saved before the per-stratum minimum was recorded
+                    "minimum": _minimum_column(table["minimum"], d.get("minimum")),
                 }
             )
             pilot = d["pilot_std_devs"]
             return cls(
                 method=str(d["method"]),
                 allocation=str(d["allocation"]),
-                minimum=int(d["minimum"]),
+                minimum=d["minimum"] if d["minimum"] == CHECKS_MINIMUM else int(d["minimum"]),
                 tolerable=float(d["tolerable"]),
                 expected=float(d["expected"]),
                 risk_incorrect_acceptance=float(d["risk_incorrect_acceptance"]),
@@ -491,7 +500,7 @@ class Plan(RecordMixin):
             else "assumed pattern",
         }.get(self.std_dev_source, self.std_dev_source)
         return [
-            f"Plan for {self.method} estimation, {self.allocation} allocation, minimum {self.minimum} per stratum",
+            f"Plan for {self.method} estimation, {self.allocation} allocation, {self._minimum_words()}",
             f"Tolerable misstatement {format_number(self.tolerable)}, expected {format_number(self.expected)}, "
             f"risk of incorrect acceptance {self.risk_incorrect_acceptance:g}{rir}",
             f"Standard deviations from {source}",
@@ -499,6 +508,11 @@ class Plan(RecordMixin):
             f"sampling risk {format_number(self.planned_allowance)}; standard error aimed at "
             f"{format_number(self.target_std_error)}, reached with these sizes {format_number(self.achieved_std_error)}",
         ]
+
+    def _minimum_words(self) -> str:
+        if self.minimum == CHECKS_MINIMUM:
+            return "each stratum at least the size its normal-approximation checks ask for"
+        return f"minimum {self.minimum} per stratum"
 
     def summary(self) -> str:
         parts = self._lines() + ["", text_table(self._HEADER, self._rows())]
@@ -517,6 +531,13 @@ class Plan(RecordMixin):
             out += "<ul>" + "".join(f"<li>{esc(f.message)} {esc(f.advice)}</li>" for f in self.checks) + "</ul>"
         out += "".join(f"<p>Note: {esc(n)}</p>" for n in self.notes)
         return out
+
+
+def _minimum_column(col: pd.Series, minimum: object) -> np.ndarray:
+    """The per-stratum minimum, or the plan's single minimum for plans that did not record one."""
+    fill = int(minimum) if isinstance(minimum, (int, float)) and not isinstance(minimum, bool) else 0
+    return np.array([fill if v is None or (isinstance(v, float) and math.isnan(v)) else int(v) for v in col],
+                    dtype=np.int64)
 
 
 def _floats(col: pd.Series) -> np.ndarray:
@@ -588,7 +609,7 @@ def plan_sample(
     method: str = "mpu",
     std_dev_source: str | Mapping[str, float] | MisstatementPattern | tuple[float, float] = "book",
     allocation: str = "neyman",
-    minimum: int = 2,
+    minimum: int | str = CHECKS_MINIMUM,
 ) -> Plan:
     r"""Plan the sample: per-stratum sizes that reach the precision the risks ask for.
 
@@ -624,8 +645,15 @@ def plan_sample(
     allocation:
         ``"neyman"`` (default), ``"proportional"`` or ``"equal"``.
     minimum:
-        Fewest items per stratum (default 2, the fewest from which a
-        stratum's variance can be estimated); strata with fewer items are
+        Fewest items per stratum. ``"checks"`` (the default): each stratum
+        gets at least the size that passes the normal-approximation checks
+        below for its book values' skewness,
+        ``max(30, floor(28 + 25 G1^2) + 1)``
+        (:func:`auditmean.core.normality.size_passing_checks`), so the plan
+        raises none of them for the book values; a stratum that cannot
+        reach it is examined in full. A whole number sets one minimum for
+        every stratum (2 is the fewest from which a stratum's variance can
+        be estimated). Strata with no more items than their minimum are
         examined in full.
 
     Returns
@@ -683,7 +711,10 @@ def plan_sample(
         raise ParameterError(
             "allocation", f"must be one of {', '.join(repr(r) for r in sz.ALLOCATION_RULES)}, got {allocation!r}"
         )
-    minimum = _whole("minimum", minimum, 0)
+    if not (isinstance(minimum, str) and minimum == CHECKS_MINIMUM):
+        if isinstance(minimum, str):
+            raise ParameterError("minimum", f"must be a whole number or {CHECKS_MINIMUM!r}, got {minimum!r}")
+        minimum = _whole("minimum", minimum, 0)
     kind, pilot, pattern = _std_dev_source(std_dev_source)
     if kind == "book" and method != "mpu":
         raise ParameterError(
@@ -739,7 +770,11 @@ def plan_sample(
     z_a = sz.z_acceptance(ria)
     z_r = sz.z_rejection(rir)
     se = sz.target_std_error(tm, em, z_a, z_r)
-    result = sz.sizes_for_precision(counts, std, se * se, allocation, minimum, take_all)
+    if minimum == CHECKS_MINIMUM:
+        minimums = nrm.size_passing_checks(skew)
+    else:
+        minimums = np.full(counts.size, int(minimum), dtype=np.int64)
+    result = sz.sizes_for_precision(counts, std, se * se, allocation, minimums, take_all)
     sizes = result.sizes
     full = sizes >= counts
     plan_table = pd.DataFrame(
@@ -751,10 +786,11 @@ def plan_sample(
             "size": sizes.astype(np.int64),
             "take_all": full,
             "skewness": skew,
+            "minimum": minimums,
         }
     )
-    if minimum > 0 and np.any(~take_all & (counts > 0) & (counts <= minimum)):
-        small = [lab for lab, c, t in zip(labels, counts, take_all) if not t and 0 < c <= minimum]
+    if np.any(~take_all & (counts > 0) & (counts <= minimums) & (minimums > 0)):
+        small = [lab for lab, c, t, m in zip(labels, counts, take_all, minimums) if not t and 0 < c <= m]
         notes.append(
             f"{len(small)} strat{'um' if len(small) == 1 else 'a'} with no more items than the minimum "
             f"({', '.join(small[:5])}{' ...' if len(small) > 5 else ''}) will be examined in full"

@@ -200,13 +200,11 @@ def _sorted_labels(values: list[Any]) -> list[Any]:
         return sorted(values, key=lambda v: (type(v).__name__, str(v)))
 
 
-def _check_population(population: object, table: str = "population") -> _Checked:
-    df = require_frame(population, table)
-    require_columns(df, ["item_id", "stratum"], table, why="needed to select items")
-    ids_s = df["item_id"].reset_index(drop=True)
-    missing = ids_s.isna().to_numpy()
-    if ids_s.dtype == object or not pd.api.types.is_string_dtype(ids_s.dtype):
-        not_text = ~missing & ~ids_s.map(lambda v: isinstance(v, str)).to_numpy(dtype=bool)
+def _refuse_non_text_ids(ids: pd.Series, missing: np.ndarray, table: str) -> None:
+    """Refuse item ids that are not text (``missing``: the rows without one), naming the rows;
+    for every design's selection."""
+    if ids.dtype == object or not pd.api.types.is_string_dtype(ids.dtype):
+        not_text = ~missing & ~ids.map(lambda v: isinstance(v, str)).to_numpy(dtype=bool)
         if not_text.any():
             raise InputError(
                 "item ids must be text, exactly as written in the population file "
@@ -216,7 +214,10 @@ def _check_population(population: object, table: str = "population") -> _Checked
                 column="item_id",
                 rows=[spreadsheet_row(i) for i in np.flatnonzero(not_text)],
             )
-    blank = missing | ids_s.str.strip().eq("").fillna(False).to_numpy(dtype=bool)
+
+
+def _refuse_blank_ids(blank: np.ndarray, table: str) -> None:
+    """Refuse blank item ids (``blank``: a flag a row), naming the rows; for every design's selection."""
     if blank.any():
         raise InputError(
             "blank item ids; every item needs an id",
@@ -224,6 +225,15 @@ def _check_population(population: object, table: str = "population") -> _Checked
             column="item_id",
             rows=[spreadsheet_row(i) for i in np.flatnonzero(blank)],
         )
+
+
+def _check_population(population: object, table: str = "population") -> _Checked:
+    df = require_frame(population, table)
+    require_columns(df, ["item_id", "stratum"], table, why="needed to select items")
+    ids_s = df["item_id"].reset_index(drop=True)
+    missing = ids_s.isna().to_numpy()
+    _refuse_non_text_ids(ids_s, missing, table)
+    _refuse_blank_ids(missing | ids_s.str.strip().eq("").fillna(False).to_numpy(dtype=bool), table)
     dup = duplicated_rows(ids_s)
     if dup:
         examples = ", ".join(repr(v) for v in ids_s[ids_s.duplicated()].unique()[:3])
@@ -486,6 +496,22 @@ def _text(v: Any) -> str:
     return str(_plain(v))
 
 
+def _verification_result(
+    diffs: list[tuple[str, str, str, str]], seed: str, n_expected: int, n_recorded: int
+) -> VerificationResult:
+    """The result of re-performing a selection (either design) from its differences
+    (item id, problem, expected, recorded), sorted by item id and problem."""
+    differences = pd.DataFrame(diffs, columns=["item_id", "problem", "expected", "recorded"], dtype=object)
+    differences = differences.sort_values(["item_id", "problem"], kind="stable").reset_index(drop=True)
+    return VerificationResult(
+        match=differences.empty,
+        seed=seed,
+        n_expected=n_expected,
+        n_recorded=n_recorded,
+        differences=differences,
+    )
+
+
 def verify_selection(
     population: pd.DataFrame,
     sizes: Mapping[Any, int],
@@ -551,15 +577,7 @@ def compare_selection(expected: pd.DataFrame, seed: str, recorded_selection: pd.
         for r in both[bad].itertuples():
             diffs.append((r.id_text, "different key", _text(r.key_e), _text(r.key_r)))
 
-    differences = pd.DataFrame(diffs, columns=["item_id", "problem", "expected", "recorded"], dtype=object)
-    differences = differences.sort_values(["item_id", "problem"], kind="stable").reset_index(drop=True)
-    return VerificationResult(
-        match=differences.empty,
-        seed=seed,
-        n_expected=len(expected),
-        n_recorded=len(rec),
-        differences=differences,
-    )
+    return _verification_result(diffs, seed, len(expected), len(rec))
 
 
 def extend_selection(

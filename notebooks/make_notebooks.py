@@ -112,7 +112,6 @@ the plan and its picture follow at once.
     risk_incorrect_rejection=0.20,
     method="ratio",
     std_dev_source=MisstatementPattern(0.04, 0.20),
-    minimum=30,
     folder=work / "receivables-2024",
 )
 plan'''),
@@ -143,6 +142,7 @@ Save the plan (this starts the engagement folder), then draw the selection with 
 the selection are recorded; anyone with the seed and the ledger can re-perform it.
 """),
     code('''plan.save_button.click()
+plan.wait_check()  # the plan's own coverage check, saved with the plan
 selection = SelectionPanel(state, seed="quillonby-2024-demo")
 selection.draw_button.click()
 selection.wait()

@@ -1,4 +1,4 @@
-"""Shared fixtures: the open reference data in ../shared/reference/."""
+"""Shared fixtures: the open reference data in tests/data/ (source and licence in its README.md)."""
 
 from __future__ import annotations
 
@@ -8,7 +8,8 @@ import pandas as pd
 import pytest
 
 PROJECT_ROOT = Path(__file__).resolve().parents[1]
-REFERENCE_DIR = PROJECT_ROOT.parent / "shared" / "reference"
+#: Every file the tests read lives in the repository (no test reads anything beside it).
+REFERENCE_DIR = Path(__file__).resolve().parent / "data"
 
 collect_ignore = ["benchmarks"]
 
@@ -17,14 +18,14 @@ def _reference(name: str) -> Path:
     path = REFERENCE_DIR / name
     if not path.exists():
         raise FileNotFoundError(
-            f"reference data {path} is missing: the tests expect ../shared/reference/ beside the project"
+            f"reference data {path} is missing from the repository (see tests/data/README.md)"
         )
     return path
 
 
 @pytest.fixture(scope="session")
 def apistrat() -> pd.DataFrame:
-    """The stratified sample of 200 schools from R's survey package (see ../shared/reference/README.md)."""
+    """The stratified sample of 200 schools from R's survey package (see tests/data/README.md)."""
     return pd.read_csv(_reference("apistrat.csv"), dtype={"cds": str})
 
 

@@ -82,7 +82,8 @@ def test_demo_runs_the_whole_job(tmp_path, capsys):
     assert main(["demo", "--folder", str(folder), "--data", str(PROJECT_ROOT / "demo_data")]) == 0
     text = capsys.readouterr().out
     assert "invented data" in text and "Relied-on method" in text and "Caution:" in text
-    assert (folder / "selection.csv").exists() and list((folder / "evaluations").glob("*.json"))
+    eng = folder / "receivables-2024"  # the demo's folder holds its data and the engagement
+    assert (eng / "selection.csv").exists() and list((eng / "evaluations").glob("*.json"))
 
 
 def test_simulate_on_an_engagement_keeps_the_result(tmp_path, ledger_file, capsys):

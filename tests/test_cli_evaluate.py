@@ -37,9 +37,13 @@ def test_json_equals_engine(files, capsys):
 
 def test_text_has_conclusion_and_cautions(files, capsys):
     s, t = files
+    # with each stratum's largest book value the finite-sample bound can be formed (4 of 10 items
+    # of at most 40 each: its upper limit is far above the tolerable 20)
+    STRATA.assign(largest_book_value=40.0).to_csv(t, index=False)
     assert main(["evaluate", str(s), str(t), "--tolerable", "20", "--risk-acceptance", "0.05", "--rely-on", "difference"]) == 0
     text = capsys.readouterr().out
     assert "does not support" in text and "Caution:" in text
+    assert "finite-sample bound" in text and "for information only" in text
 
 
 def test_bad_risk_is_a_one_line_error(files, capsys):

@@ -124,6 +124,7 @@ def test_demo_ends_with_the_workpaper(tmp_path, capsys):
     folder = tmp_path / "demo"
     assert main(["demo", "--folder", str(folder), "--data", str(PROJECT_ROOT / "demo_data")]) == 0
     out = capsys.readouterr().out
+    folder = folder / "receivables-2024"  # the engagement inside the demo's folder
     assert f"Workpaper: {folder / 'workpaper.xlsx'}" in out and str(folder / "workpaper.html") in out
     from auditmean.cli.demo import DEMO_SETTINGS
 

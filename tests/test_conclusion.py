@@ -35,9 +35,21 @@ def test_supported_when_upper_limit_within_tolerable():
     assert c.planned_allowance == pytest.approx(40.0 * Z_R / (Z_A + Z_R), rel=1e-12)
     assert c.achieved_allowance == pytest.approx(Z_R * SE, rel=1e-12)
     assert math.isnan(c.adjusted_allowance)
-    assert c.verdict == "supports"
-    assert "supports the conclusion" in c.wording and "does not replace" in c.wording
+    # the classical rule on the normal limits supports ...
+    assert c.normal_verdict == "supports"
+    # ... but four items raise the normal-approximation warnings, so the verdict rests on a limit
+    # that holds; without each stratum's largest book value none can be formed
+    assert c.basis == "no limit that holds" and c.verdict == "cannot be assessed"
+    assert "for information only" in c.wording and "does not replace" in c.wording
     assert ev.primary == "difference"
+
+
+def test_without_warnings_the_normal_limits_decide():
+    # The same arithmetic with the warnings taken as absent: the classical rule decides.
+    from auditmean.evaluation.conclusion import _verdict_words
+
+    verdict, words = _verdict_words("difference", 15.0, 15.0 + Z_A * SE, 15.0 - Z_A * SE, 40.0, 0.05, False)
+    assert verdict == "supports" and "supports the conclusion" in words
 
 
 def test_not_supported_and_adjusted_allowance():
@@ -50,9 +62,12 @@ def test_not_supported_and_adjusted_allowance():
     # ... which is TM - z_A SE = 20 - 12.199 = 7.80
     assert c.adjusted_allowance == pytest.approx(20.0 - Z_A * SE, rel=1e-12)
     # UML = 27.2 > 20: not supported, and |PM| = 15 > A'' = 7.8 says the same
-    assert c.verdict == "does not support"
+    assert c.normal_verdict == "does not support"
     assert abs(c.projected_misstatement) > c.adjusted_allowance
-    assert "does not support" in c.wording and "examine more items" in c.wording
+    from auditmean.evaluation.conclusion import _verdict_words
+
+    verdict, words = _verdict_words("difference", 15.0, c.upper_limit, c.lower_limit, 20.0, 0.05, False)
+    assert verdict == "does not support" and "examine more items" in words
 
 
 def test_expected_misstatement_enters_the_planned_allowance():
@@ -75,14 +90,24 @@ def test_every_method_side_by_side_with_second_opinion_where_flagged():
     text = ev.summary()
     assert "Caution:" in text and "professional judgement" in text
     d = ev.to_dict()
-    assert d["kind"] == "evaluation" and d["conclusions"]["ratio"]["verdict"] in ("supports", "does not support")
+    assert d["kind"] == "evaluation" and d["conclusions"]["ratio"]["normal_verdict"] in ("supports", "does not support")
+    # every method is flagged and the strata table has no largest book values: no limit holds
+    assert {c.verdict for c in ev.conclusions.values()} == {"cannot be assessed"}
 
 
 def test_zero_width_interval_cannot_be_assessed():
     sample = SAMPLE.assign(audited_value=SAMPLE["book_value"])
     ev = evaluate(sample, STRATA.assign(book_total=250.0), tolerable=10.0, methods=["difference", "mpu"], primary="difference")
     assert ev.conclusion.verdict == "cannot be assessed"
-    assert ev.conclusions["mpu"].verdict in ("supports", "does not support")
+    assert ev.conclusions["mpu"].normal_verdict in ("supports", "does not support")
+
+
+def test_zero_width_interval_with_largest_values_rests_on_the_bound():
+    sample = SAMPLE.assign(audited_value=SAMPLE["book_value"])
+    strata = STRATA.assign(book_total=250.0, largest_book_value=100.0)
+    ev = evaluate(sample, strata, tolerable=10.0, methods=["difference"], primary="difference")
+    assert ev.conclusion.basis == "finite-sample bound"
+    assert ev.conclusion.relied_upper_limit == pytest.approx(ev.overstatement_bound.upper)
 
 
 @pytest.mark.parametrize(

@@ -1,10 +1,11 @@
 """The estimation engine against outside references.
 
 1. Published results of R's survey package for the `api` stratified sample
-   (T. Lumley, survey 4.1-1; table in ../shared/reference/README.md).
+   (T. Lumley, survey 4.1-1; table in tests/data/README.md).
 2. samplics 0.6.1 (PyPI), a general-purpose survey library, on the same
    data, to 8 or more significant digits. samplics' ``fpc`` argument is the
-   factor 1 - n_h/N_h (see ../shared/recipes/browser-tests.md); weights are
+   factor 1 - n_h/N_h, not N_h (in that form the samplics checks below agree with
+   the published R standard errors that the first tests check); weights are
    given as N_h/n_h exactly rather than the file's rounded ``pw``.
 3. statsmodels OLS (PyPI) for the separate regression estimator: the
    stratum total is N_h times the fitted line at the population book mean,

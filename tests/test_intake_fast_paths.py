@@ -239,8 +239,7 @@ def test_fingerprint_describes_the_items_as_loaded() -> None:
     expected = content_fingerprint(["B-2", "A-1", "C-3"], [20.0, 10.5, -3.25])
     values_before = pop.book_values.copy()
     # a user writing into the items table afterwards changes neither the fingerprint nor the values
-    with pd.option_context("mode.copy_on_write", True):
-        pop.items.loc[0, "book_value"] = 999.0
+    pop.items.loc[0, "book_value"] = 999.0
     assert pop.content_sha256 == expected
     assert np.array_equal(pop.book_values, values_before)
     assert pop.to_dict()["content_sha256"] == expected

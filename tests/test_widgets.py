@@ -9,7 +9,9 @@ data is not used for any asserted number.
 
 from __future__ import annotations
 
+import html
 import json
+import math
 import os
 from datetime import datetime, timezone
 
@@ -21,9 +23,14 @@ import pytest
 
 from auditmean._records import format_number
 from auditmean.cautions import CAUTIONS
-from auditmean.coverage import FixedTaint, MisstatementModel, simulate_coverage
+from auditmean.core.estimators import METHOD_NAMES
+from auditmean.coverage import FixedTaint, MisstatementModel, UniformTaint, simulate_coverage
 from auditmean.engagement import Engagement
+from auditmean.errors import ParameterError
+from auditmean.evaluation import evaluate
+from auditmean.evaluation.overstatement import overstatement_bound
 from auditmean.plan import MisstatementPattern, plan_sample
+from auditmean.plan_check import LOW_ERROR_DEFAULT_TEXT, check_plan
 from auditmean.population import load_population, profile
 from auditmean.selection import select
 from auditmean.strata import stratify
@@ -41,6 +48,7 @@ from auditmean.widgets import (
     figures,
 )
 from auditmean.widgets.app import STEP_TITLES
+from auditmean.widgets.evaluation import evaluation_html
 from auditmean.workflow import evaluate_engagement
 
 STRATIFY = {"method": "cumulative_sqrt", "n_strata": 3, "top_cutoff": 5_000.0}
@@ -54,6 +62,7 @@ PLAN = {
     "minimum": 10,
 }
 SEED = "widget-test-seed"
+CHECK_SAMPLES = 300  # simulated samples of the plan's coverage check in these tests (the panel's default is 2,000)
 
 
 @pytest.fixture(scope="module")
@@ -86,13 +95,14 @@ def _planned(tmp_path, ledger_path):
     state = EngagementState()
     pop = _population_panel(state, ledger_path)
     strata = StrataPanel(state, **STRATIFY)
-    plan = PlanPanel(state, **PLAN, folder=tmp_path / "engagement")
+    plan = PlanPanel(state, **PLAN, check_replications=CHECK_SAMPLES, folder=tmp_path / "engagement")
     return state, pop, strata, plan
 
 
 def _selected(tmp_path, ledger_path):
     state, pop, strata, plan = _planned(tmp_path, ledger_path)
     plan.save_button.click()
+    plan.wait_check(120)  # saving starts the plan's coverage check
     assert plan.message.value == "", plan.message.value
     sel = SelectionPanel(state, seed=SEED)
     sel.draw_button.click()
@@ -196,6 +206,23 @@ def test_plan_panel_replans_and_redraws_in_place(tmp_path, ledger):
     assert f"<b>{direct2.total_size:,}</b>" in panel.headline.value
 
 
+def test_plan_panel_hides_only_the_inputs_that_do_not_apply(ledger):
+    path, _ = ledger
+    state = EngagementState()
+    _population_panel(state, path)
+    StrataPanel(state, **STRATIFY)
+    panel = PlanPanel(state, tolerable=60_000.0)  # the defaults: minimum from the checks, no rejection risk
+    hidden = {panel.minimum, panel.risk_rejection, panel.error_rate, panel.typical_taint}
+    assert panel.check_taint_kind.value == "uniform"  # the low-error default: a share between two values
+    for w in (panel.tolerable, panel.expected, panel.risk_acceptance, panel.method, panel.allocation,
+              panel.check_error_rate, panel.check_taint, panel.check_taint_high, panel.check_replications, *hidden):
+        assert (w.layout.display == "none") == (w in hidden), w.description
+    coverage = CoveragePanel(state)
+    for w in (coverage.error_rate, coverage.taint, coverage.understatement, coverage.replications, coverage.seed):
+        assert w.layout.display != "none", w.description
+    assert coverage.taint_high.layout.display == "none"
+
+
 def test_plan_panel_shows_a_bad_input_as_a_message(tmp_path, ledger):
     path, _ = ledger
     state, _pop, _strata, panel = _planned(tmp_path, path)
@@ -208,6 +235,113 @@ def test_plan_panel_shows_a_bad_input_as_a_message(tmp_path, ledger):
     assert panel.message.value == ""
     # source: plan_sample directly with mean-per-unit on the book values
     assert state.plan.sizes == plan_sample(state.strata, **{**PLAN, "method": "mpu", "std_dev_source": "book"}).sizes
+
+
+# --------------------------------------------------------------------------- the plan's coverage check
+
+
+def test_plan_panel_checks_the_plan_against_its_stated_risk(tmp_path, ledger):
+    path, _ = ledger
+    state, _pop, _strata, panel = _planned(tmp_path, path)
+    # the pattern simulated is in plain view: the one the plan assumed (PLAN's MisstatementPattern(0.05, 0.2)),
+    # every misstated item misstated by the typical share (auditmean.plan_check.default_model)
+    assert (panel.check_error_rate.value, panel.check_taint_kind.value, panel.check_taint.value) == (0.05, "fixed", 0.2)
+    assert "the pattern the plan assumed" in panel.check_default_html.value
+    # every input of the pattern is on show (hiding "up to" for a fixed share once hid its neighbours too)
+    shown_inputs = (panel.check_error_rate, panel.check_taint_kind, panel.check_taint, panel.check_understatement,
+                    panel.check_replications, panel.check_seed)
+    assert [w.layout.display for w in shown_inputs] == [None] * 6 and panel.check_taint_high.layout.display == "none"
+    panel.check_seed.value = 5
+    panel.check_button.click()
+    panel.wait_check(120)
+    assert "am-error" not in panel.message.value, panel.message.value
+    check = state.plan_check
+    # source: check_plan called directly on the same strata and plan, with its default pattern, samples and seed
+    direct, no_bound = _engine_check(state, None, seed=5)
+    assert ("The finite-sample bound was not simulated" in panel.check_html.value) == bool(no_bound)
+    assert (check.simulated_risk, check.line, check.model) == (direct.simulated_risk, direct.line, direct.model)
+    assert not check.model_is_default  # the plan's own pattern, not the low-error default
+    shown = panel.check_html.value
+    assert "am-plan-check-line" in shown and html.escape(direct.line) in shown
+    assert f"{direct.monetary_unit_size:,}" in shown
+    assert format_number(direct.monetary_unit_zero_error_bound) in shown
+    # arithmetic: the Monte Carlo standard error of a share p of R samples is sqrt(p (1 - p) / R)
+    p = check.simulated_risk
+    assert check.simulated_risk_mc_se == pytest.approx(math.sqrt(p * (1 - p) / CHECK_SAMPLES), rel=1e-9)
+
+    # another pattern, typed in: the check simulates exactly that one
+    panel.check_taint_kind.value = "uniform"
+    panel.check_taint.value, panel.check_taint_high.value = 0.1, 0.9
+    panel.check_understatement.value = 0.25
+    assert "You changed the pattern" in panel.check_default_html.value
+    panel.check_button.click()
+    panel.wait_check(120)
+    model = MisstatementModel(error_rate=0.05, taint=UniformTaint(0.1, 0.9), understatement_share=0.25)
+    direct, _ = _engine_check(state, model, seed=5)
+    assert state.plan_check.simulated_risk == direct.simulated_risk
+    assert state.plan_check.model == direct.model
+    panel.check_reset_button.click()
+    assert (panel.check_taint_kind.value, panel.check_taint.value, panel.check_understatement.value) == ("fixed", 0.2, 0.0)
+
+    # a plan without an assumed pattern is checked under the stated low-error default
+    panel.method.value = "mpu"
+    panel.source.value = "book"
+    assert panel.message.value == "", panel.message.value
+    assert (panel.check_error_rate.value, panel.check_taint_kind.value) == (0.02, "uniform")
+    assert html.escape(LOW_ERROR_DEFAULT_TEXT) in panel.check_default_html.value
+    assert state.plan_check is None  # the plan changed: the earlier check is gone
+    panel.check_button.click()
+    panel.wait_check(120)
+    assert state.plan_check.model_is_default
+    assert "(the default)" in panel.check_html.value
+
+
+def _engine_check(state, model, **kwargs):
+    """check_plan on the state's plan, as the panel calls it: where the engine refuses to simulate the
+    finite-sample bound on this design (ParameterError on ``bounds``), the check without it, and why."""
+    args = dict(replications=CHECK_SAMPLES, **kwargs)
+    try:
+        return check_plan(state.strata, state.plan, model, **args), ""
+    except ParameterError as exc:
+        assert exc.parameter == "bounds", exc
+        return check_plan(state.strata, state.plan, model, include_bound=False, **args), exc.reason
+
+
+def test_plan_check_can_be_stopped_and_says_so(tmp_path, ledger):
+    path, _ = ledger
+    state, _pop, _strata, panel = _planned(tmp_path, path)
+    panel.check_replications.value = 100_000
+    panel.check_button.click()
+    panel.check_task.stop_button.click()
+    panel.wait_check(300)
+    check = state.plan_check
+    assert check is not None and check.replications < 100_000
+    assert "Stopped early" in panel.check_html.value
+    assert f"{check.replications:,} of 100,000" in panel.check_html.value
+
+
+def test_saving_the_plan_runs_its_check_and_keeps_it_in_the_folder(tmp_path, ledger):
+    path, _ = ledger
+    state, _pop, _strata, panel = _planned(tmp_path, path)
+    assert state.plan_check is None
+    panel.save_button.click()  # not checked before: the check starts once the plan is saved
+    panel.wait_check(120)
+    assert "am-error" not in panel.message.value, panel.message.value
+    check = state.plan_check
+    assert check is not None and check.replications == CHECK_SAMPLES
+    saved = Engagement.open(tmp_path / "engagement").plan()
+    assert saved["plan_check"] == json.loads(json.dumps(check.to_dict()))
+    # checked before saving: the same check is saved with the plan, and none runs again
+    panel.restart_button.click()
+    panel.folder.value = str(tmp_path / "second")
+    panel.save_button.click()
+    assert not panel.check_task.running and state.plan_check is check
+    assert Engagement.open(tmp_path / "second").plan()["plan_check"] == saved["plan_check"]
+    # a resumed engagement shows its saved check
+    resumed = EngagementState.from_folder(tmp_path / "second")
+    assert resumed.plan_check.line == check.line
+    again = PlanPanel(resumed)
+    assert html.escape(check.line) in again.check_html.value
 
 
 # --------------------------------------------------------------------------- the engagement
@@ -294,12 +428,59 @@ def test_evaluation_panel_shows_the_engines_conclusion(tmp_path, ledger):
         assert ev.conclusions[m].verdict == c.verdict
         assert format_number(c.upper_limit) in panel.result_html.value
     assert len(eng.evaluations()) == before + 1  # saved in the folder
+    shown = panel.result_html.value
+    # what the verdict rests on, method by method (source: the same direct call)
+    for m, c in direct.conclusions.items():
+        assert ev.conclusions[m].basis == c.basis
+        assert ev.conclusions[m].relied_upper_limit == pytest.approx(c.relied_upper_limit, nan_ok=True)
+    # the relied-on field names the method (it was once blank after evaluating)
+    assert METHOD_NAMES[direct.primary] in panel.primary.label
+    c = direct.conclusion
+    # this ledger's credits form a sampled stratum, where the finite-sample bound cannot be formed
+    # (auditmean.evaluate's rule); warnings fire, so no limit that holds is available, and the panel says so
+    assert direct.estimates[direct.primary].flags and c.basis == "no limit that holds"
+    assert "No limit that holds is available" in shown
+    assert html.escape(direct.bound_note) in shown
+    assert f"{format_number(c.upper_limit)} (for information)" in shown  # the normal limit, for information
     fig = panel.figure.figure
     xs = [x for x in fig.data[0].x if x is not None]
     assert xs[:2] == [direct.conclusions[list(direct.conclusions)[0]].lower_limit,
                       direct.conclusions[list(direct.conclusions)[0]].upper_limit]
     for caution in CAUTIONS:
         assert caution.replace("'", "&#x27;") in panel.result_html.value
+
+
+def test_the_conclusion_shows_the_bound_it_rests_on():
+    # an invented sample of two strata, 1% of items misstated: the warnings about the normal approximation
+    # fire for ratio estimation and the verdict rests on the finite-sample bound (auditmean.evaluate's rule)
+    rng = np.random.default_rng(1)
+    rows, strata = [], []
+    for h, (count, scale) in enumerate(((2000, 200.0), (800, 2000.0))):
+        book = np.round(rng.uniform(0.2, 1.0, count) * scale, 2)
+        taint = np.where(rng.random(count) < 0.01, rng.uniform(0.01, 1.0, count), 0.0)
+        audited = np.round(book * (1 - taint), 2)
+        take = rng.choice(count, size=40, replace=False)
+        rows.append(pd.DataFrame({"stratum": str(h), "item_id": [f"S{h}-{i}" for i in take],
+                                  "book_value": book[take], "audited_value": audited[take]}))
+        strata.append({"stratum": str(h), "count": count, "book_total": float(book.sum()),
+                       "largest_book_value": float(book.max())})
+    sample, table = pd.concat(rows, ignore_index=True), pd.DataFrame(strata)
+    ev = evaluate(sample, table, tolerable=200_000, risk_incorrect_acceptance=0.05, primary="ratio")
+    c = ev.conclusion
+    assert ev.estimates["ratio"].flags and c.basis == "finite-sample bound"
+    shown = evaluation_html(ev)
+    # source: auditmean.overstatement_bound called directly on the same tables
+    bound = overstatement_bound(sample, table, confidence=0.95)
+    assert c.relied_upper_limit == pytest.approx(bound.upper)
+    assert f"The verdict rests on the finite-sample bound: upper limit of misstatement {format_number(c.relied_upper_limit)}" in shown
+    assert f"{format_number(c.upper_limit)} (for information)" in shown
+    assert 'class="am-box am-note am-finite-bound"' in shown and format_number(bound.upper) in shown
+    for assumption in bound.assumptions:
+        assert html.escape(assumption) in shown
+    # the picture marks the limit relied on beside the normal limits
+    fig = figures.estimate_limits(ev)
+    assert list(fig.data[3].x) == [x.relied_upper_limit for x in ev.conclusions.values()
+                                   if x.basis == "finite-sample bound"]
 
 
 def test_coverage_panel_runs_the_engine_and_can_be_stopped(tmp_path, ledger):
@@ -379,6 +560,7 @@ def test_selection_can_be_stopped_and_nothing_is_recorded(tmp_path, ledger, monk
     path, _truth = ledger
     state, pop, strata, plan = _planned(tmp_path, path)
     plan.save_button.click()
+    plan.wait_check(120)
     sel = SelectionPanel(state, seed=SEED)
 
     def pressed_stop_meanwhile(eng, population, seed=None, *, proceed=None):

@@ -91,3 +91,34 @@ def test_coverage_figures_show_the_rates():
     assert list(fig.data[0].error_y.array) == pytest.approx([0.02, 0.04])  # two Monte Carlo standard errors
     risks = figs.coverage_risks(rows, 0.05)
     assert list(risks.data[0].y) == [0.07, 0.2] and len(risks.data) == 1
+
+
+def test_estimate_limits_marks_the_finite_sample_bound():
+    rows = [{"method": "ratio", "total": 980.0, "lower": 960.0, "upper": 990.0}]
+    fig = figs.estimate_limits(rows, book_total=1_000.0, tolerable=50.0, finite_bound=70.0)
+    lines = sorted(s.x0 for s in fig.layout.shapes if s.type == "line")
+    assert 930.0 in lines  # 1,000 - 70: the audited total the bound guarantees at least
+    assert any("finite-sample bound" in a.text for a in fig.layout.annotations)
+    plain = figs.estimate_limits(rows, book_total=1_000.0, tolerable=50.0)
+    assert len(plain.layout.shapes) == len(fig.layout.shapes) - 1
+
+
+def test_monetary_bounds_figure():
+    ev = {
+        "relied_on": "count_or_betting",
+        "bounds": {
+            "stringer": {"upper": 1_200.0, "projected": 300.0},
+            "count_or_betting": {"upper": 1_100.0, "projected": 300.0},
+        },
+    }
+    rows = figs.monetary_bound_rows(ev)
+    names = {"stringer": "Stringer", "count_or_betting": HOSTILE_LABELS[2]}
+    fig = figs.monetary_bounds(rows, 1_000.0, names=names)
+    bars = fig.data[0]
+    assert list(bars.x) == [1_200.0, 1_100.0]  # the record's upper bounds, in order
+    assert list(bars.y) == ["Stringer", html.escape(HOSTILE_LABELS[2]) + "  (relied on)"]
+    assert list(fig.data[1].x) == [300.0, 300.0]  # projected
+    assert [s.x0 for s in fig.layout.shapes] == [1_000.0]  # tolerable
+    assert not any("<" in s for s in _all_strings(fig.to_plotly_json()["data"]))
+    with pytest.raises(ParameterError, match="tolerable"):
+        figs.monetary_bounds(rows, float("nan"))

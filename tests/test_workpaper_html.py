@@ -186,7 +186,7 @@ def test_numbers_are_the_engines(report):
     eng, plan = report["engagement"], report["plan"]
     frame = eng.sample_frame().frame
     direct = auditmean.evaluate(
-        frame[["stratum", "item_id", "book_value", "audited_value"]], strata_table(plan),
+        frame[["stratum", "item_id", "book_value", "audited_value"]], strata_table(plan, eng.plan()["strata"]),
         tolerable=plan.tolerable, expected=plan.expected, risk_incorrect_acceptance=plan.risk_incorrect_acceptance,
         risk_incorrect_rejection=plan.risk_incorrect_rejection, planned_allowance=plan.planned_allowance,
         primary="ratio", seed=SEED, bootstrap_replicates=300,

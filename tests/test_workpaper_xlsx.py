@@ -126,7 +126,7 @@ def test_evaluation_numbers_are_the_engines(made):
     eng, plan = made["engagement"], made["plan"]
     frame = eng.sample_frame().frame
     direct = auditmean.evaluate(
-        frame[["stratum", "item_id", "book_value", "audited_value"]], strata_table(plan),
+        frame[["stratum", "item_id", "book_value", "audited_value"]], strata_table(plan, eng.plan()["strata"]),
         tolerable=plan.tolerable, expected=plan.expected, risk_incorrect_acceptance=plan.risk_incorrect_acceptance,
         risk_incorrect_rejection=plan.risk_incorrect_rejection, planned_allowance=plan.planned_allowance,
         primary="ratio", seed=SEED, bootstrap_replicates=300,

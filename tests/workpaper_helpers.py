@@ -10,6 +10,13 @@ top stratum, which is examined in full: every one of them is selected.
 (Stratum labels cannot be made hostile through the chain: preassigned strata
 cannot be re-stratified by the engagement chain yet, see the report of this
 change; the figure tests give hostile labels to the figure functions.)
+The plan is checked by simulation when it is made (``check_plan``, kept in
+``plan.json`` under ``"plan_check"``).
+
+:func:`build_rare_error_engagement` makes a second, plain engagement
+(invented ledger, no credits) in which a few items are overstated by much
+of their book value: the normal-approximation warnings fire for the
+relied-on method, so its verdict rests on the finite-sample bound.
 """
 
 from __future__ import annotations
@@ -24,6 +31,7 @@ from auditmean._atomic import json_text, write_text_atomic
 from auditmean._records import json_safe
 from auditmean.coverage import FixedTaint, MisstatementModel, simulate_coverage
 from auditmean.plan import MisstatementPattern
+from auditmean.plan_check import check_plan
 from auditmean.workflow import (
     PopulationReading,
     draw_selection,
@@ -104,6 +112,7 @@ def build_hostile_engagement(root: Path) -> dict:
             "std_dev_source": MisstatementPattern(0.05, 0.25),
             "minimum": 30,
         },
+        check=lambda strata, plan: check_plan(strata, plan, replications=200, seed=17),
     )
     selection, _ = draw_selection(eng, population, seed=SEED)
     book = population.items.set_index("item_id")["book_value"]
@@ -140,4 +149,56 @@ def build_hostile_engagement(root: Path) -> dict:
         "coverage": json.loads((folder / "coverage.json").read_text(encoding="utf-8")),
         "notes": noted,
         "ledger_path": ledger_path,
+    }
+
+
+RARE_TOLERABLE = 150_000.0
+
+
+def rare_error_ledger(n: int = 2000, seed: int = 23) -> tuple[pd.DataFrame, pd.Series]:
+    """An invented ledger of positive book values, and audited values with a few large overstatements."""
+    rng = np.random.default_rng(seed)
+    book = np.round(rng.lognormal(6.8, 1.0, n), 2) + 1.0
+    audited = book.copy()
+    wrong = rng.choice(n, 30, replace=False)  # 1.5% of the items
+    audited[wrong[:20]] = 0.0  # overstated by all of their book value
+    audited[wrong[20:]] = np.round(book[wrong[20:]] * 0.4, 2)  # overstated by 60%
+    ids = [f"R{i:05d}" for i in range(n)]
+    return pd.DataFrame({"item": ids, "amount": book}), pd.Series(audited, index=ids)
+
+
+def build_rare_error_engagement(root: Path) -> dict:
+    """Plan (checked by simulation), select, record the true audited values and evaluate."""
+    ledger, truth = rare_error_ledger()
+    path = root / "rare.csv"
+    ledger.to_csv(path, index=False)
+    folder = root / "rare-engagement"
+    reading = PopulationReading(str(path), id_column="item", value_column="amount")
+    eng, population, strata, plan = start_engagement(
+        folder,
+        reading,
+        stratify_options={"method": "cumulative_sqrt", "n_strata": 3, "top_items": 5},
+        plan_options={
+            "tolerable": RARE_TOLERABLE,
+            "expected": 10_000.0,
+            "risk_incorrect_acceptance": 0.05,
+            "method": "ratio",
+            "std_dev_source": MisstatementPattern(0.015, 0.8),
+        },
+        check=lambda strata, plan: check_plan(strata, plan, replications=200, seed=29),
+    )
+    selection, _ = draw_selection(eng, population, seed="rare errors, invented")
+    ids = selection["item_id"].tolist()
+    results = root / "rare-found.csv"
+    pd.DataFrame({"id": ids, "value": truth.loc[ids].to_numpy()}).to_csv(results, index=False)
+    eng.record_results_file(results, id_column="id", value_column="value")
+    evaluation = evaluate_engagement(eng, bootstrap_replicates=200)
+    return {
+        "folder": folder,
+        "engagement": eng,
+        "population": population,
+        "plan": plan,
+        "evaluation": evaluation,
+        "saved": eng.evaluations()[-1],
+        "plan_record": eng.plan(),
     }

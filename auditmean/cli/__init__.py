@@ -8,6 +8,12 @@ functions a script would, and formats what they return.
 
 Errors the user can fix (auditmean's own exception types) are printed as one
 readable line on standard error with exit code 2, never as a traceback.
+
+Building the parser imports no numpy, scipy or pandas, so that ``auditmean
+--help`` answers at once: a subcommand module imports at its top only what
+``register`` needs (the standard library, :mod:`auditmean.errors`,
+:mod:`auditmean.core.choices`, :mod:`auditmean.cli._common`) and imports the
+rest inside ``run``. ``tests/test_cli_startup.py`` checks this.
 """
 
 from __future__ import annotations
@@ -17,7 +23,7 @@ import importlib
 import sys
 from collections.abc import Sequence
 
-from auditmean import __version__
+from auditmean._version import __version__
 from auditmean.errors import AuditMeanError
 
 # Order is the order of the job; each name is a module of this package.

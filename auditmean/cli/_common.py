@@ -4,13 +4,15 @@ from __future__ import annotations
 
 import json
 import sys
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
-import pandas as pd
-
-from auditmean._records import json_safe
 from auditmean.errors import InputError
-from auditmean.tables import read_table
+
+if TYPE_CHECKING:
+    import pandas as pd
+
+# pandas and the readers are imported where they are used: building the
+# command line's parser imports this module and must stay light.
 
 __all__ = ["print_json", "rename_columns", "add_json_flag", "add_table_options", "load_sample_and_strata"]
 
@@ -20,6 +22,8 @@ def add_json_flag(parser) -> None:
 
 
 def print_json(obj: Any) -> None:
+    from auditmean._records import json_safe
+
     json.dump(json_safe(obj), sys.stdout, indent=2, ensure_ascii=False, allow_nan=False)
     sys.stdout.write("\n")
 
@@ -54,6 +58,8 @@ def add_table_options(p, optional: bool = False) -> None:
 
 def load_sample_and_strata(args):
     """Read both files and rename their columns to auditmean's names."""
+    from auditmean.tables import read_table
+
     sample = read_table(args.sample, sheet=args.sheet)
     sample = rename_columns(
         sample,

@@ -95,8 +95,9 @@ def register(subparsers) -> argparse.ArgumentParser:
     )
     p.add_argument("--engagement", default=None, metavar="DIR", help="resume this engagement folder at once")
     p.add_argument("--demo", action="store_true",
-                   help="prefill the bundled invented demo ledger and settings (run from the project folder)")
-    p.add_argument("--data", default=None, metavar="DIR", help="folder with the demo files (default: ./demo_data)")
+                   help="prefill the invented demo ledger and settings (from the project folder, or after auditmean demo)")
+    p.add_argument("--data", default=None, metavar="DIR",
+                   help="folder with the demo files (default: ./demo_data, else ./auditmean-demo/demo_data)")
     p.add_argument("--port", type=int, default=0, help="port on 127.0.0.1 (default: a free one)")
     p.add_argument("--no-browser", action="store_true", help="only print the address; do not open a browser")
     p.set_defaults(run=run)

@@ -10,7 +10,6 @@ from __future__ import annotations
 
 import argparse
 
-from auditmean._records import format_number, text_table
 from auditmean.cautions import cautions_text
 from auditmean.cli._common import (
     add_json_flag,
@@ -18,9 +17,8 @@ from auditmean.cli._common import (
     load_sample_and_strata,
     print_json,
 )
-from auditmean.core.estimators import BOOK_VALUE_METHODS, METHODS
+from auditmean.core.choices import BOOK_VALUE_METHODS, METHODS
 from auditmean.errors import MethodNotApplicable
-from auditmean.evaluation import METHOD_NAMES, estimate_total
 
 __all__ = ["register", "run"]
 
@@ -74,6 +72,8 @@ def register(subparsers) -> argparse.ArgumentParser:
 
 
 def run(args) -> int:
+    from auditmean.evaluation import METHOD_NAMES, estimate_total
+
     sample, strata = load_sample_and_strata(args)
     has_book = "book_value" in sample.columns and "book_total" in strata.columns
     methods = args.method or [m for m in METHODS if has_book or m not in BOOK_VALUE_METHODS]
@@ -125,6 +125,9 @@ def run(args) -> int:
 
 def side_by_side(results) -> str:
     """One column per method, one row per quantity."""
+    from auditmean._records import format_number, text_table
+    from auditmean.evaluation import METHOD_NAMES
+
     if not results:
         return "No estimate could be made."
     first = results[0]

@@ -10,9 +10,8 @@ from auditmean.cli._common import (
     load_sample_and_strata,
     print_json,
 )
-from auditmean.core.estimators import METHODS
+from auditmean.core.choices import METHODS
 from auditmean.errors import InputError
-from auditmean.evaluation.conclusion import evaluate
 
 __all__ = ["register", "run", "add_risk_options"]
 
@@ -51,6 +50,9 @@ def register(subparsers) -> argparse.ArgumentParser:
         "--missing", choices=("error", "at_book_value", "as_zero"), default="error",
         help="selected items without an audited value: refuse (default), take at book value, or as fully misstated",
     )
+    from auditmean.cli._monetary import add_bound_option
+
+    add_bound_option(e, "monetary-unit engagement: the bound to conclude on (default the plan's); every bound is shown")
     add_risk_options(p, required=False)
     p.add_argument("--planned-allowance", type=float, default=None, metavar="AMOUNT", help="planned allowance for sampling risk, if the plan set one")
     p.add_argument("--method", action="append", choices=METHODS, help="only this method (repeat for several)")
@@ -76,6 +78,12 @@ def _run_engagement(args) -> int:
     if args.sample or args.strata:
         raise InputError("give either the two files or --engagement, not both", table="options")
     eng, _population = open_engagement(args.engagement, population_arg(args))
+    from auditmean.cli._monetary import is_monetary_unit, run_evaluate
+
+    if is_monetary_unit(eng):
+        return run_evaluate(args, eng)
+    if getattr(args, "bound", None) is not None:
+        raise InputError("--bound is for a monetary-unit engagement; this engagement is stratified", table="options")
     ev = evaluate_engagement(
         eng, missing_treatment=args.missing, primary=args.rely_on, distribution=args.distribution,
         bootstrap_replicates=args.replicates, seed=None if args.seed is None else _seed(args.seed),
@@ -92,10 +100,14 @@ def _run_engagement(args) -> int:
 def run(args) -> int:
     if args.engagement:
         return _run_engagement(args)
+    if getattr(args, "bound", None) is not None:
+        raise InputError("--bound is for a monetary-unit engagement (--engagement DIR)", table="options")
     if not (args.sample and args.strata):
         raise InputError("give a sample file and a strata file, or --engagement DIR", table="options")
     if args.tolerable is None:
         raise InputError("--tolerable is needed with the two-file form", table="options")
+    from auditmean.evaluation.conclusion import evaluate
+
     sample, strata = load_sample_and_strata(args)
     ev = evaluate(
         sample,

@@ -7,14 +7,17 @@ later steps (``select``, ``record``, ``evaluate``, ``verify``) read.
 from __future__ import annotations
 
 import argparse
+from typing import TYPE_CHECKING
 
 from auditmean.cli._common import add_json_flag, print_json
 from auditmean.cli.evaluate import add_risk_options
 from auditmean.errors import InputError
-from auditmean.plan import MisstatementPattern, plan_sample
-from auditmean.scan import choose_engine, scan_of, stratify_population
-from auditmean.tables import read_table
-from auditmean.workflow import PopulationReading, start_engagement
+
+if TYPE_CHECKING:
+    from auditmean.workflow import PopulationReading
+
+# The engine is imported inside the functions that use it, so that building the
+# command line's parser stays light (see auditmean/cli/__init__.py).
 
 __all__ = ["register", "run", "add_population_options", "reading_from"]
 
@@ -30,6 +33,8 @@ def add_population_options(p, required: bool = True) -> None:
 
 
 def reading_from(args, source: str) -> PopulationReading:
+    from auditmean.workflow import PopulationReading
+
     return PopulationReading(
         source=source,
         id_column=args.id_column,
@@ -39,6 +44,16 @@ def reading_from(args, source: str) -> PopulationReading:
         sep=args.sep,
         sheet=args.sheet,
     )
+
+
+def _minimum(text: str):
+    """``--minimum``: 'checks' or a whole number."""
+    if text.strip().lower() == "checks":
+        return "checks"
+    try:
+        return int(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"give a whole number or 'checks', not {text!r}") from None
 
 
 def register(subparsers) -> argparse.ArgumentParser:
@@ -72,10 +87,22 @@ def register(subparsers) -> argparse.ArgumentParser:
     a = p.add_argument_group("sample size")
     a.add_argument("--method", choices=("mpu", "difference", "ratio"), default="mpu", help="estimator the plan is for (default mean-per-unit)")
     a.add_argument("--allocation", choices=("neyman", "proportional", "equal"), default="neyman")
-    a.add_argument("--minimum", type=int, default=2, help="fewest items per sampled stratum (default 2)")
+    a.add_argument(
+        "--minimum", type=_minimum, default="checks", metavar="N|checks",
+        help="fewest items per sampled stratum: a whole number, or 'checks' for the size each stratum's "
+        "normal-approximation checks ask for (default: checks)",
+    )
     a.add_argument("--error-rate", type=float, default=None, metavar="P", help="assumed share of items misstated (difference and ratio plans)")
     a.add_argument("--typical-taint", type=float, default=None, metavar="T", help="assumed misstatement as a share of book value")
     a.add_argument("--pilot", default=None, metavar="FILE", help="pilot standard deviations per stratum (columns stratum, std_dev)")
+    a.add_argument(
+        "--check-samples", type=int, default=2000, metavar="N",
+        help="samples the coverage check simulates on the proposed plan, to measure its real risk of "
+        "incorrect acceptance (default 2000; 0 skips the check)",
+    )
+    from auditmean.cli._monetary import add_design_options
+
+    add_design_options(p)
     p.add_argument("--engagement", default=None, metavar="DIR", help="start an engagement folder holding this plan")
     add_json_flag(p)
     p.set_defaults(run=run)
@@ -83,6 +110,9 @@ def register(subparsers) -> argparse.ArgumentParser:
 
 
 def _std_dev_source(args):
+    from auditmean.plan import MisstatementPattern
+    from auditmean.tables import read_table
+
     if args.pilot:
         t = read_table(args.pilot)
         for col in ("stratum", "std_dev"):
@@ -135,21 +165,44 @@ def options_from(args) -> tuple[dict, dict]:
 
 
 def run(args) -> int:
+    from auditmean.plan import plan_sample
+    from auditmean.scan import choose_engine, scan_of, stratify_population
+    from auditmean.workflow import start_engagement
+
+    if getattr(args, "design", "stratified") == "monetary-unit":
+        from auditmean.cli._monetary import run_plan
+
+        return run_plan(args)
     reading = reading_from(args, args.population)
     population = reading.load()
     strat_opts, plan_opts = options_from(args)
+    checked: list = []
+
+    def check(strata, plan):
+        """The plan's coverage check (None when skipped, or when the items are not in memory)."""
+        if not args.check_samples or getattr(strata, "book_values", None) is None:
+            return None
+        from auditmean.plan_check import check_plan
+
+        checked.append(check_plan(strata, plan, replications=args.check_samples))
+        return checked[-1]
+
     if args.engagement:
         eng, population, strata, plan = start_engagement(
-            args.engagement, reading, stratify_options=strat_opts, plan_options=plan_opts, population=population
+            args.engagement, reading, stratify_options=strat_opts, plan_options=plan_opts, population=population,
+            check=check,
         )
     else:
         strata = stratify_population(population, **strat_opts)
         plan = plan_sample(strata, **plan_opts)
+        check(strata, plan)
+    check = checked[-1] if checked else None
     prof = scan_of(population).profile()
     engine = {"engine": getattr(population, "engine", "pandas"),
               "reason": getattr(population, "reason", None) or choose_engine(population.source).reason}
     if args.json:
         print_json({"profile": prof.to_dict(), "strata": strata.to_dict(), "plan": plan.to_dict(),
+                    "plan_check": None if check is None else check.to_dict(),
                     "engagement": args.engagement, "population_engine": engine})
         return 0
     print(f"Population read by {engine['engine']}: {engine['reason']}.")
@@ -158,6 +211,9 @@ def run(args) -> int:
     print(strata.summary())
     print()
     print(plan.summary())
+    if check is not None:
+        print()
+        print(check.summary())
     if args.engagement:
         print(f"\nEngagement started in {args.engagement}. Next: auditmean select --engagement {args.engagement}")
     return 0

@@ -7,7 +7,6 @@ import argparse
 from auditmean.cli._common import add_json_flag, print_json
 from auditmean.cli.select import add_engagement_options, population_arg
 from auditmean.errors import InputError
-from auditmean.workflow import open_engagement
 
 __all__ = ["register", "run"]
 
@@ -39,6 +38,8 @@ def register(subparsers) -> argparse.ArgumentParser:
 
 
 def run(args) -> int:
+    from auditmean.workflow import open_engagement
+
     eng, _population = open_engagement(args.engagement, population_arg(args))
     if args.results and args.item:
         raise InputError("give a results file or --item/--value, not both", table="options")
@@ -54,6 +55,12 @@ def run(args) -> int:
     status = eng.status()
     if args.json:
         print_json({"recorded": int(len(res.current)), "status": status.to_dict()})
+        return 0
+    from auditmean.cli._monetary import is_monetary_unit, print_next, say
+
+    if is_monetary_unit(eng):
+        say(status.summary())
+        print_next(eng, "Next command")
         return 0
     print(status.summary())
     return 0

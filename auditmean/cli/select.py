@@ -5,7 +5,6 @@ from __future__ import annotations
 import argparse
 
 from auditmean.cli._common import add_json_flag, print_json
-from auditmean.workflow import draw_selection, open_engagement
 
 __all__ = ["register", "run", "add_engagement_options", "population_arg"]
 
@@ -37,18 +36,35 @@ def register(subparsers) -> argparse.ArgumentParser:
         description=(
             "Draw the planned sample. Each item's key is the first 16 hexadecimal digits of "
             "SHA-256(seed + ':' + item id); each stratum takes the items with the smallest keys, so "
-            "anyone can re-perform the selection with any SHA-256 tool."
+            "anyone can re-perform the selection with any SHA-256 tool. For the monetary-unit design, draw "
+            "k is the cent floor(u * B / 2^52) of the positive book total B laid out in item-id order, u the "
+            "first 13 hexadecimal digits of SHA-256(seed + ':unit:' + k)."
         ),
     )
     add_engagement_options(p)
     p.add_argument("--seed", default=None, help="the seed (any text); default: a new one is proposed and recorded")
+    p.add_argument(
+        "--extend-to", type=int, default=None, metavar="N",
+        help="monetary-unit design: draw more units, N in all, with the recorded seed; every item already "
+        "selected stays selected",
+    )
     add_json_flag(p)
     p.set_defaults(run=run)
     return p
 
 
 def run(args) -> int:
+    from auditmean.workflow import draw_selection, open_engagement
+
     eng, population = open_engagement(args.engagement, population_arg(args))
+    from auditmean.cli._monetary import is_monetary_unit, run_select
+
+    if is_monetary_unit(eng):
+        return run_select(args, eng, population)
+    if getattr(args, "extend_to", None) is not None:
+        from auditmean.errors import InputError
+
+        raise InputError("--extend-to is for the monetary-unit design; this engagement is stratified", table="options")
     selection, seed = draw_selection(eng, population, seed=args.seed)
     if args.json:
         print_json({"seed": seed, "items": len(selection), "file": str(eng.folder / "selection.csv"),

@@ -16,26 +16,18 @@ import json
 import signal
 import sys
 import time
+from typing import TYPE_CHECKING
 
-import numpy as np
-
-from auditmean._frames import duplicated_rows, label_column, numeric_column
-from auditmean.amounts import parse_amounts
 from auditmean.cautions import cautions_text
 from auditmean.cli._common import add_json_flag, print_json
-from auditmean.core.estimators import METHODS
-from auditmean.coverage import (
-    MAX_REPLICATIONS,
-    BetaTaint,
-    FixedTaint,
-    MisstatementModel,
-    ObservedTaints,
-    UniformTaint,
-    simulate_coverage,
-)
+from auditmean.core.choices import MAX_REPLICATIONS, METHODS
 from auditmean.errors import InputError, ParameterError, spreadsheet_row
-from auditmean.plan import Plan
-from auditmean.tables import read_table
+
+if TYPE_CHECKING:
+    from auditmean.coverage import MisstatementModel
+
+# numpy, pandas and the engine are imported inside the functions that use them,
+# so that building the command line's parser stays light (see auditmean/cli/__init__.py).
 
 __all__ = ["register", "run", "ProgressBar"]
 
@@ -48,7 +40,10 @@ def register(subparsers) -> argparse.ArgumentParser:
             "Before any item is examined: repeat the planned stratified sample many times on the "
             "population's own book values, with misstatement drawn from a model, and report how often "
             "each estimator's confidence limits contain the true audited total, its bias, the actual "
-            "risks of incorrect acceptance and rejection, and how often each warning would be raised."
+            "risks of incorrect acceptance and rejection, and how often each warning would be raised; "
+            "beside them, the bound that holds in finite samples. For an engagement of the monetary-unit "
+            "design (--engagement), the planned monetary-unit sample is repeated instead and every bound "
+            "it offers is shown beside the normal limit, each with how often it held."
         ),
     )
     p.add_argument("population", nargs="?", default=None, help="population file (CSV, TSV, Excel or Parquet): one row per item")
@@ -94,7 +89,8 @@ def register(subparsers) -> argparse.ArgumentParser:
     run_opts.add_argument("--replications", type=int, default=2000,
                           help=f"simulated samples, 1 to {MAX_REPLICATIONS:,} (default 2,000)")
     run_opts.add_argument("--seed", type=int, default=None, help="seed (default: a new one, printed with the results)")
-    run_opts.add_argument("--confidence", type=float, default=0.95, help="confidence level (default 0.95)")
+    run_opts.add_argument("--confidence", type=float, default=None,
+                          help="confidence level (default 0.95; a monetary-unit engagement: its plan's)")
     run_opts.add_argument("--distribution", choices=("normal", "t"), default="normal", help="normal or Student t limits")
     run_opts.add_argument("--tolerable", type=float, default=None, help="tolerable misstatement (default: the plan's)")
     run_opts.add_argument("--expected", type=float, default=None, help="expected misstatement (default: the plan's)")
@@ -159,6 +155,10 @@ class ProgressBar:
 
 
 def _population(args):
+    from auditmean._frames import duplicated_rows, label_column
+    from auditmean.amounts import parse_amounts
+    from auditmean.tables import read_table
+
     frame = read_table(args.population, sheet=args.sheet)
     where = {"file": args.population}
     for col, option in ((args.value_column, "--value-column"), (args.stratum_column, "--stratum-column")):
@@ -180,6 +180,12 @@ def _population(args):
 
 
 def _sizes(args, strata):
+    import numpy as np
+
+    from auditmean._frames import duplicated_rows, label_column, numeric_column
+    from auditmean.plan import Plan
+    from auditmean.tables import read_table
+
     if args.plan is not None:
         try:
             with open(args.plan, encoding="utf-8") as fh:
@@ -219,6 +225,16 @@ def _sizes(args, strata):
 
 
 def _model(args, strata) -> MisstatementModel:
+    from auditmean._frames import numeric_column
+    from auditmean.coverage import (
+        BetaTaint,
+        FixedTaint,
+        MisstatementModel,
+        ObservedTaints,
+        UniformTaint,
+    )
+    from auditmean.tables import read_table
+
     if args.taint is not None:
         taint = FixedTaint(args.taint)
     elif args.taint_uniform is not None:
@@ -263,11 +279,22 @@ def _model(args, strata) -> MisstatementModel:
 
 
 def _run_engagement(args) -> int:
-    from auditmean.workflow import engagement_strata, open_engagement, simulate_engagement
+    import numpy as np
+
+    from auditmean.engagement import Engagement
+    from auditmean.workflow import (
+        design_of,
+        engagement_strata,
+        open_engagement,
+        simulate_engagement,
+    )
 
     if args.population or args.sizes or args.plan:
         raise InputError("with --engagement the population and plan come from the folder; give no file", table="options")
+    monetary = design_of(Engagement.open(args.engagement)) == "monetary_unit"
     eng, population = open_engagement(args.engagement)
+    if monetary:
+        return _run_monetary_engagement(args, eng, population)
     strata = engagement_strata(eng, population)
     labels = np.asarray(strata.labels, dtype=object)[strata.codes]
     model = _model(args, labels)
@@ -280,14 +307,51 @@ def _run_engagement(args) -> int:
     with ProgressBar(show=show) as bar:
         result = simulate_engagement(
             eng, population, model, estimators=args.estimator or METHODS, replications=args.replications,
-            confidence=args.confidence, seed=args.seed, fixed_population=args.fixed_population, progress=bar,
+            confidence=_confidence(args), seed=args.seed, fixed_population=args.fixed_population, progress=bar,
             distribution=args.distribution, second_opinion=args.second_opinion,
             second_opinion_replicates=args.second_opinion_replicates, **extra,
         )
     return _report(args, result)
 
 
+def _confidence(args) -> float:
+    """``--confidence``, 0.95 when not given (a monetary-unit engagement takes its plan's instead)."""
+    return 0.95 if args.confidence is None else args.confidence
+
+
+def _run_monetary_engagement(args, eng, population) -> int:
+    """The coverage check of a monetary-unit engagement: every bound and the normal limit, side by side."""
+    from auditmean.workflow import simulate_engagement
+
+    for given, option in (
+        (args.estimator, "--estimator"),
+        (args.distribution != "normal", "--distribution"),
+        (args.second_opinion, "--second-opinion"),
+        (args.stratum_error_rate, "--stratum-error-rate"),
+    ):
+        if given:
+            raise ParameterError(
+                option, "does not apply to a monetary-unit engagement: its check simulates every bound that "
+                "auditmean.monetary_unit_bound offers and the normal limit of the mean taint, on one error rate "
+                "for the whole population (--error-rate)",
+            )
+    model = _model(args, [])
+    show = sys.stderr.isatty() if args.progress is None else args.progress
+    extra = {}
+    for name in ("tolerable", "expected", "confidence"):
+        if getattr(args, name) is not None:
+            extra[name] = getattr(args, name)
+    with ProgressBar(show=show) as bar:
+        result = simulate_engagement(
+            eng, population, model, replications=args.replications, seed=args.seed,
+            fixed_population=args.fixed_population, progress=bar, **extra,
+        )
+    return _report(args, result)
+
+
 def run(args) -> int:
+    from auditmean.coverage import simulate_coverage
+
     if args.engagement:
         return _run_engagement(args)
     if not args.population or not (args.sizes or args.plan):
@@ -306,7 +370,7 @@ def run(args) -> int:
             model,
             estimators=args.estimator or METHODS,
             replications=args.replications,
-            confidence=args.confidence,
+            confidence=_confidence(args),
             tolerable=tolerable,
             expected=expected,
             seed=args.seed,
@@ -323,8 +387,11 @@ def _report(args, result) -> int:
     if args.json:
         print_json(result.to_dict())
         return 0
+    import textwrap
+
     print(result.summary())
     print(f"\nSeed {result.seed} (give --seed {result.seed} to repeat this run).")
     print()
-    print(cautions_text())
+    for line in cautions_text().split("\n"):  # within 100 columns, as the summary
+        print(textwrap.fill(line, width=100, subsequent_indent="  ") if len(line) > 100 else line)
     return 0

@@ -5,7 +5,6 @@ from __future__ import annotations
 import argparse
 
 from auditmean.cli._common import add_json_flag, print_json
-from auditmean.engagement import Engagement
 
 __all__ = ["register", "run"]
 
@@ -19,9 +18,19 @@ def register(subparsers) -> argparse.ArgumentParser:
 
 
 def run(args) -> int:
-    status = Engagement.open(args.engagement).status()
+    from auditmean.engagement import Engagement
+
+    eng = Engagement.open(args.engagement)
+    status = eng.status()
+    from auditmean.cli._monetary import is_monetary_unit, next_command, say
+
+    monetary = eng.plan() is not None and is_monetary_unit(eng)
     if args.json:
-        print_json(status.to_dict())
+        print_json({**status.to_dict(), "design": "monetary_unit", "next_command": next_command(eng)}
+                   if monetary else status.to_dict())
+    elif monetary:
+        say(status.summary())
+        print(f"Next command: {next_command(eng)}")
     else:
         print(status.summary())
     return 0

@@ -6,7 +6,6 @@ import argparse
 
 from auditmean.cli._common import add_json_flag, print_json
 from auditmean.cli.select import add_engagement_options, population_arg
-from auditmean.workflow import open_engagement, verify_engagement
 
 __all__ = ["register", "run"]
 
@@ -24,10 +23,16 @@ def register(subparsers) -> argparse.ArgumentParser:
 
 
 def run(args) -> int:
+    from auditmean.workflow import open_engagement, verify_engagement
+
     eng, population = open_engagement(args.engagement, population_arg(args))
     result = verify_engagement(eng, population)
     if args.json:
         print_json(result.to_dict())
     else:
         print(result.summary())
+        from auditmean.cli._monetary import is_monetary_unit, print_next
+
+        if is_monetary_unit(eng):
+            print_next(eng)
     return 0 if result.match else 1

@@ -79,6 +79,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from auditmean.core.choices import BOOK_VALUE_METHODS, METHODS  # light, for the command line
 from auditmean.core.intervals import satterthwaite_df
 from auditmean.core.moments import centred_cross_sums, group_counts, group_means, group_sums
 
@@ -100,8 +101,6 @@ __all__ = [
     "estimate_strata",
 ]
 
-METHODS = ("mpu", "difference", "ratio", "combined_ratio", "regression")
-BOOK_VALUE_METHODS = ("difference", "ratio", "combined_ratio", "regression")
 #: Plain names of the methods, for people.
 METHOD_NAMES = {
     "mpu": "mean-per-unit",

@@ -17,7 +17,7 @@ from __future__ import annotations
 import math
 
 import numpy as np
-from scipy import stats
+from scipy.special import ndtri, stdtrit
 
 __all__ = ["SIDES", "DISTRIBUTIONS", "critical_value", "confidence_limits", "satterthwaite_df"]
 
@@ -28,14 +28,16 @@ DISTRIBUTIONS = ("normal", "t")
 def critical_value(confidence: float, sides: str, distribution: str = "normal", df: float = math.inf) -> float:
     """The multiplier of the standard error for the requested limits.
 
-    Normal quantiles from :func:`scipy.stats.norm.ppf`, Student's t quantiles
-    from :func:`scipy.stats.t.ppf` with ``df`` degrees of freedom (a t with
+    Normal quantiles from :func:`scipy.special.ndtri`, Student's t quantiles
+    from :func:`scipy.special.stdtrit` with ``df`` degrees of freedom (the
+    functions behind ``scipy.stats.norm.ppf`` and ``scipy.stats.t.ppf``, the
+    same values without importing ``scipy.stats``; a t with
     infinite or undefined degrees of freedom falls back to the normal).
     """
     p = 1.0 - (1.0 - confidence) / 2.0 if sides == "two-sided" else confidence
     if distribution == "t" and math.isfinite(df) and df > 0:
-        return float(stats.t.ppf(p, df))
-    return float(stats.norm.ppf(p))
+        return float(stdtrit(df, p))
+    return float(ndtri(p))
 
 
 def confidence_limits(

@@ -31,7 +31,7 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass
 
-from scipy import stats
+from scipy.special import stdtrit  # Student's t quantile (as scipy.stats.t.ppf)
 
 __all__ = ["JohnsonLimits", "johnson_limits"]
 
@@ -83,7 +83,7 @@ def johnson_limits(
         As in :func:`auditmean.core.intervals.confidence_limits`.
     """
     p = 1.0 - (1.0 - confidence) / 2.0 if sides == "two-sided" else confidence
-    q = float(stats.t.ppf(p, max(n - 1, 1)))
+    q = float(stdtrit(max(n - 1, 1), p))
     k = q * se
     if not (s2 > 0) or not math.isfinite(mu3):
         lo, hi = mean - k, mean + k

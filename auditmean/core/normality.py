@@ -97,6 +97,21 @@ def smallest_size_above(bound: np.ndarray | float) -> np.ndarray:
     return out.astype(np.int64)
 
 
+def size_passing_checks(g1: np.ndarray | float) -> np.ndarray:
+    """The smallest sample size per stratum that passes every per-stratum check here.
+
+    ``max(30, floor(28 + 25 G1**2) + 1)``: the rule of thumb of 30 items
+    (common practice, no published source) and the bound of Sugden, Smith
+    and Jones (2000), which is above Cochran's ``25 G1**2`` for every
+    ``G1``. A stratum whose skewness is undefined (NaN, e.g. every book
+    value equal) needs the 30 of the rule of thumb. Planning caps the result
+    at the stratum's count (a stratum that cannot reach it is examined in
+    full).
+    """
+    need = smallest_size_above(sugden_minimum(g1))
+    return np.maximum(need, RULE_OF_THUMB_ITEMS).astype(np.int64)
+
+
 def _sampled(n: np.ndarray, census: np.ndarray | None) -> np.ndarray:
     if census is None:
         return np.ones(n.shape, dtype=bool)

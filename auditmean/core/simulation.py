@@ -98,7 +98,7 @@ from collections.abc import Callable, Sequence
 from dataclasses import dataclass, field
 
 import numpy as np
-from scipy import stats
+from scipy.special import ndtri, stdtrit  # normal and t quantiles (as scipy.stats' ppf)
 
 from auditmean.core.bootstrap import percentile_limits, rescaling_bootstrap
 from auditmean.core.estimators import METHODS, minimum_items_for_variance
@@ -174,6 +174,9 @@ class Design:
         Amount below which two totals are taken as equal (rounding of sums
         of the book values), used when a limit is compared with the true
         total or the upper limit of misstatement with tolerable.
+    largest:
+        The largest book value of each stratum (needed only by the
+        finite-sample bound, :mod:`auditmean.core.bound_simulation`).
     """
 
     counts: np.ndarray
@@ -183,6 +186,7 @@ class Design:
     items: tuple[np.ndarray, ...]
     n_large: np.ndarray
     rounding: float
+    largest: np.ndarray | None = None
 
     @property
     def full(self) -> np.ndarray:
@@ -217,6 +221,7 @@ class Settings:
     tolerable: float | None = None
     expected: float | None = None
     second_opinion_replicates: int = 0
+    bounds: tuple[str, ...] = ()
 
 
 @dataclass(frozen=True)
@@ -227,7 +232,9 @@ class Batch:
     sampled book values, misstatement amounts ``book * taint`` and positions
     within ``Design.book[h]`` (``None`` for strata examined in full);
     ``stratum_misstatement`` is ``(batch, H)``: each population's
-    misstatement per stratum.
+    misstatement per stratum; ``largest_overstatement`` ``(batch, H)`` its
+    largest overstatement of one item per stratum (0 when none), which the
+    finite-sample bound's scenarios need (:mod:`auditmean.core.bound_simulation`).
     """
 
     size: int
@@ -236,6 +243,7 @@ class Batch:
     positions: list[np.ndarray | None]
     stratum_misstatement: np.ndarray
     full_taints: list[np.ndarray | None] = field(default_factory=list)
+    largest_overstatement: np.ndarray | None = None
 
 
 def chunk_generator(seed: int, k: int) -> np.random.Generator:
@@ -263,6 +271,12 @@ def batch_size(design: Design, process: ErrorProcess | None) -> int:
             per += _error_width(ordinary, float(process.rates[h])) + int(design.n_large[h])
             if design.full[h]:
                 per += int(design.counts[h])
+    return _whole_chunks(per)
+
+
+def _whole_chunks(per: int) -> int:
+    """Replications per batch when one replication holds ``per`` elements: as many whole chunks as
+    fit the element budget, at least one and at most ``_MAX_CHUNKS`` (either design)."""
     chunks = _BLOCK_BUDGET // (max(per, 1) * CHUNK)
     return CHUNK * int(max(1, min(_MAX_CHUNKS, chunks)))
 
@@ -404,6 +418,7 @@ def draw_batch(
     ps: list[np.ndarray | None] = []
     full_taints: list[np.ndarray | None] = []
     by_stratum = np.zeros((size, H))
+    largest_over = np.zeros((size, H))
     for h in range(H):
         book_h = design.book[h]
         N, n = int(design.counts[h]), int(design.sizes[h])
@@ -428,6 +443,11 @@ def draw_batch(
                     cut = np.searchsorted(rows, b)
                     rows, pos, tau, tau_large, total = rows[:cut], pos[:cut], tau[:cut], tau_large[:b], total[:b]
                 by_stratum[rows_here, h] = total
+                largest_over[rows_here, h] = _row_max(rows, book_h[pos] * tau, b)
+                if k:
+                    largest_over[rows_here, h] = np.maximum(
+                        largest_over[rows_here, h], (tau_large * book_h[N - k:]).max(axis=1)
+                    )
             if full:
                 if f_all is not None:
                     everything = np.broadcast_to(np.arange(N, dtype=np.int64), (b, N))
@@ -444,11 +464,21 @@ def draw_batch(
             row += b
         if process is None:
             by_stratum[:, h] = float(np.sum(misstatement[h]))
+            largest_over[:, h] = max(float(np.max(misstatement[h], initial=0.0)), 0.0)
         xs.append(x_all)
         ms.append(m_all)
         ps.append(p_all)
         full_taints.append(f_all)
-    return Batch(size, xs, ms, ps, by_stratum, full_taints)
+    return Batch(size, xs, ms, ps, by_stratum, full_taints, largest_over)
+
+
+def _row_max(rows: np.ndarray, values: np.ndarray, batch: int) -> np.ndarray:
+    """The largest of ``values`` per row ``0 .. batch - 1`` (rows sorted ascending), at least 0."""
+    out = np.zeros(batch)
+    if rows.size:
+        starts = np.flatnonzero(np.r_[True, rows[1:] != rows[:-1]])
+        out[rows[starts]] = np.maximum(np.maximum.reduceat(values, starts), 0.0)
+    return out
 
 
 @dataclass(frozen=True)
@@ -696,11 +726,11 @@ def _critical(settings: Settings, df: np.ndarray, two_sided: bool) -> np.ndarray
     p = 1.0 - (1.0 - settings.confidence) / 2.0 if two_sided else settings.confidence
     if settings.distribution == "t":
         ok = np.isfinite(df) & (df > 0)
-        out = np.full(df.shape, float(stats.norm.ppf(p)))
+        out = np.full(df.shape, float(ndtri(p)))
         if ok.any():
-            out[ok] = stats.t.ppf(p, df[ok])
+            out[ok] = stdtrit(df[ok], p)
         return out
-    return float(stats.norm.ppf(p))
+    return float(ndtri(p))
 
 
 @dataclass(frozen=True)
@@ -743,6 +773,17 @@ class SimulationOutput:
         For the first ``keep`` replications: ``(replication, item position,
         stratum code, book value, audited value)`` arrays of every item
         examined, strata examined in full included.
+    bounds:
+        With ``Settings.bounds``: per-replication arrays of the finite-sample
+        bounds (:mod:`auditmean.core.bound_simulation`), one column per
+        bound: ``upper`` (upper bound on overstatement, as modelled),
+        ``covers`` (not below the population's misstatement), and with
+        tolerable and expected ``accepts``, ``accepts_at_tolerable``,
+        ``accepts_at_expected`` (the bound not above tolerable),
+        ``within_at_tolerable`` and ``within_at_expected`` (the scaled
+        population keeps every item's overstatement at most its stratum's
+        largest book value, the condition of the bound's guarantee).
+        Otherwise ``None``.
     """
 
     methods: tuple[str, ...]
@@ -770,6 +811,7 @@ class SimulationOutput:
     flag_counts: dict[str, dict[str, np.ndarray]]
     flag_any: dict[str, dict[str, int]]
     kept: tuple[np.ndarray, ...] | None
+    bounds: dict[str, np.ndarray] | None = None
 
 
 def _scale_to(target: float, misstatement: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
@@ -880,6 +922,13 @@ def run_simulation(
     }
     flag_any = {m: {code: 0 for code in (*STRATUM_FLAGS, *ESTIMATE_FLAGS)} for m in methods}
     kept_parts = []
+    bound_arrays = _bound_arrays(R, settings) if settings.bounds else None
+    if bound_arrays is not None:
+        from auditmean.core import bound_simulation as core_bound
+
+        zero_bound = core_bound.zero_sample_bound(
+            design.counts, design.sizes, design.full, design.largest, settings.confidence
+        )
 
     def conclude(ev: _Evaluation) -> np.ndarray:
         se = np.sqrt(np.maximum(ev.variance, 0.0))
@@ -939,6 +988,8 @@ def run_simulation(
                 )
                 acc_em[sl, j] = conclude(ev_em) & okem
             batch_flags[method] = ev.flags
+        if bound_arrays is not None:
+            _bounds_of_batch(design, batch, settings, scenarios, mis, zero_bound, bound_arrays, sl)
 
         finished = b
         if boot:
@@ -999,6 +1050,7 @@ def run_simulation(
         flag_counts=flag_counts,
         flag_any=flag_any,
         kept=kept,
+        bounds=_cut_bounds(bound_arrays, done),
     )
 
 
@@ -1053,3 +1105,50 @@ def _second_opinion(design, batch, settings, scenarios, truth, so, done, seed, f
             if progress(done + finished, R) is False:
                 return finished
     return b
+
+
+def _bound_arrays(R: int, settings: Settings) -> dict:
+    """Per-replication arrays of the finite-sample bounds, to be filled batch by batch."""
+    K = len(settings.bounds)
+    out: dict = {"upper": np.empty((R, K)), "covers": np.empty((R, K), dtype=bool)}
+    if settings.tolerable is not None:
+        out["accepts"] = np.empty((R, K), dtype=bool)
+        out["accepts_at_tolerable"] = np.empty((R, K), dtype=bool)
+        out["within_at_tolerable"] = np.empty(R, dtype=bool)
+    if settings.expected is not None:
+        out["accepts_at_expected"] = np.empty((R, K), dtype=bool)
+        out["within_at_expected"] = np.empty(R, dtype=bool)
+    return out
+
+
+def _bounds_of_batch(design, batch, settings, scenarios, mis, zero, arrays, sl) -> None:
+    """The finite-sample bound in every scenario of one batch (see :mod:`auditmean.core.bound_simulation`)."""
+    from auditmean.core.bound_simulation import bound_batch
+
+    tol = design.rounding
+    TM = settings.tolerable
+    uppers = bound_batch(
+        batch.x, batch.m, batch.stratum_misstatement, [sc[1] for sc in scenarios],
+        design.counts, design.largest, settings.confidence, zero,
+    )
+    sampled = ~design.full
+    for name, scale, _ in scenarios[1:]:
+        # Within the bound's condition: every item's overstatement at most its stratum's largest book value.
+        over = scale[:, None] * batch.largest_overstatement[:, sampled]
+        arrays["within_at_" + name][sl] = np.all(over <= design.largest[sampled] * (1.0 + 1e-12), axis=1)
+    for j in range(len(settings.bounds)):  # one bound offered so far: the stratified betting bound
+        up = uppers[0]
+        arrays["upper"][sl, j] = up
+        arrays["covers"][sl, j] = up + tol >= mis
+        for (name, _, usable), u in zip(scenarios, uppers):
+            if name == "as modelled":
+                if TM is not None:
+                    arrays["accepts"][sl, j] = u <= TM + tol
+            else:
+                arrays["accepts_at_" + name][sl, j] = (u <= TM + tol) & usable
+
+
+def _cut_bounds(arrays: dict | None, done: int) -> dict[str, np.ndarray] | None:
+    if arrays is None:
+        return None
+    return {k: v[:done] for k, v in arrays.items()}

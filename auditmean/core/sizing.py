@@ -45,7 +45,7 @@ import math
 from dataclasses import dataclass
 
 import numpy as np
-from scipy.stats import norm
+from scipy.special import ndtri  # the normal quantile (as scipy.stats.norm.ppf)
 
 __all__ = [
     "ALLOCATION_RULES",
@@ -74,7 +74,7 @@ _CEIL_RTOL = 1e-9
 
 def z_acceptance(risk_incorrect_acceptance: float) -> float:
     """One-sided normal quantile for the risk of incorrect acceptance: ``z_A = Phi^-1(1 - RIA)``."""
-    return float(norm.ppf(1.0 - risk_incorrect_acceptance))
+    return float(ndtri(1.0 - risk_incorrect_acceptance))
 
 
 def z_rejection(risk_incorrect_rejection: float | None) -> float:
@@ -84,7 +84,7 @@ def z_rejection(risk_incorrect_rejection: float | None) -> float:
     """
     if risk_incorrect_rejection is None:
         return 0.0
-    return float(norm.ppf(1.0 - risk_incorrect_rejection / 2.0))
+    return float(ndtri(1.0 - risk_incorrect_rejection / 2.0))
 
 
 def ceil_size(x: float) -> int:
@@ -456,7 +456,7 @@ def sizes_for_precision(
     std_devs: np.ndarray,
     variance: float,
     rule: str,
-    minimum: int,
+    minimum: int | np.ndarray,
     take_all: np.ndarray,
 ) -> PrecisionSizes:
     """Smallest whole sizes under an allocation rule whose variance of the total is at most ``variance``.
@@ -484,7 +484,10 @@ def sizes_for_precision(
     Nr, Sr, S2r = N[rest], S[rest], S2[rest]
     # A stratum with spread needs at least one item, whatever the minimum,
     # or the variance of the total is infinite.
-    lo_int = np.minimum(np.where(S2r > 0, max(int(minimum), 1), int(minimum)), Nr).astype(np.int64)
+    # ``minimum`` is one number for every stratum or one per stratum (same order as ``counts``).
+    m_all = np.broadcast_to(np.asarray(minimum, dtype=np.int64), N.shape)
+    m_r = m_all[rest]
+    lo_int = np.minimum(np.where(S2r > 0, np.maximum(m_r, 1), m_r), Nr).astype(np.int64)
     lo = lo_int.astype(float)
     up = Nr.astype(float)
     w = allocation_weights(rule, Nr, Sr)

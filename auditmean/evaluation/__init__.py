@@ -2,6 +2,7 @@
 
 from auditmean.evaluation.conclusion import Evaluation, MethodConclusion, evaluate
 from auditmean.evaluation.estimate import METHOD_NAMES, Estimate, estimate_total
+from auditmean.evaluation.overstatement import OverstatementBound, overstatement_bound
 from auditmean.evaluation.second_opinion import SecondOpinion, second_opinion
 
 __all__ = [
@@ -13,4 +14,6 @@ __all__ = [
     "evaluate",
     "SecondOpinion",
     "second_opinion",
+    "OverstatementBound",
+    "overstatement_bound",
 ]

@@ -22,6 +22,22 @@ misstated by more than tolerable when the upper misstatement limit does not
 exceed ``TM`` and the lower one is not below ``-TM`` (equivalently
 ``|PM| <= A''``). This is a statement about what the sample supports; the
 conclusion itself is the auditor's.
+
+A conclusion rests on a limit that holds. Where no warning about the normal
+approximation is raised for the relied-on method, that is its normal upper
+limit. Where warnings are raised (any flag of
+:data:`auditmean.core.flags.FLAG_CODES` but ``ratio-undefined``, which only
+says a stratum was estimated by differences), the normal limit is shown for
+information and the verdict on overstatement rests on the finite-sample
+bound for stratified samples (:func:`auditmean.overstatement_bound`), which
+holds whatever the sample size under its stated assumption (no item
+overstated by more than its book value) and needs each stratum's largest
+book value (``largest_book_value`` in the strata table). When that bound is
+above tolerable, the sample cannot support the conclusion with a limit that
+holds, and the wording says what would (more items, or a monetary-unit
+sample, with its size). When the bound cannot be formed (no
+``largest_book_value``, or a sampled stratum of credits) the verdict is
+"cannot be assessed", with the reason.
 """
 
 from __future__ import annotations
@@ -29,10 +45,11 @@ from __future__ import annotations
 import html
 import math
 from dataclasses import dataclass, field
+from typing import Any
 
 import numpy as np
 import pandas as pd
-from scipy import stats
+from scipy.special import ndtri  # the normal quantile (as scipy.stats.norm.ppf)
 
 from auditmean._records import RecordMixin, format_number, html_table, text_table
 from auditmean.cautions import CAUTIONS
@@ -45,6 +62,14 @@ from auditmean.evaluation.second_opinion import SecondOpinion, second_opinion
 __all__ = ["MethodConclusion", "Evaluation", "evaluate", "VERDICTS"]
 
 VERDICTS = ("supports", "does not support", "cannot be assessed")
+
+#: Warnings that do not make the normal limit unreliable (a substitution of method, said in the flag).
+_NOT_NORMALITY = frozenset({"ratio-undefined"})
+
+#: What a conclusion rests on.
+BASIS_NORMAL = "normal limit"
+BASIS_BOUND = "finite-sample bound"
+BASIS_NONE = "no limit that holds"
 
 
 @dataclass(frozen=True)
@@ -65,6 +90,12 @@ class MethodConclusion(RecordMixin):
     second_opinion_upper: float
     second_opinion_lower: float
     second_opinion_verdict: str | None
+    #: what the verdict rests on: "normal limit", "finite-sample bound" or "no limit that holds"
+    basis: str = BASIS_NORMAL
+    #: the upper limit of overstatement the verdict rests on (NaN when none holds)
+    relied_upper_limit: float = math.nan
+    #: what the normal limits alone would say (the classical rule), shown for information
+    normal_verdict: str | None = None
 
     def summary(self) -> str:
         return self.wording
@@ -89,6 +120,11 @@ class Evaluation(RecordMixin):
         The method the user relies on (its conclusion heads the summary).
     not_applicable:
         Method -> the reason it could not be used on this sample.
+    overstatement_bound:
+        The finite-sample bound for stratified samples
+        (:class:`~auditmean.evaluation.overstatement.OverstatementBound`) at
+        the risk of incorrect acceptance, or ``None`` when it could not be
+        formed (``bound_note`` says why).
     """
 
     record_kind = "evaluation"
@@ -105,6 +141,13 @@ class Evaluation(RecordMixin):
     not_applicable: dict[str, str] = field(default_factory=dict)
     bootstrap_seed: int = 0
     cautions: tuple[str, ...] = CAUTIONS
+    overstatement_bound: Any = field(default=None, repr=False)
+    bound_note: str = ""
+
+    @property
+    def basis(self) -> str:
+        """What the relied-on verdict rests on (see :data:`BASIS_NORMAL` and its neighbours)."""
+        return self.conclusion.basis
 
     @property
     def conclusion(self) -> MethodConclusion:
@@ -132,6 +175,8 @@ class Evaluation(RecordMixin):
                     "second_opinion_upper_limit": c.second_opinion_upper,
                     "warnings": len(e.flags),
                     "verdict": c.verdict,
+                    "basis": c.basis,
+                    "relied_upper_limit": c.relied_upper_limit,
                 }
             )
         return pd.DataFrame(rows)
@@ -149,6 +194,8 @@ class Evaluation(RecordMixin):
         methods = list(self.conclusions)
         rows = [[label] + [format_number(f(m)) for m in methods] for label, f in labels]
         rows.append(["warnings"] + [str(len(self.estimates[m].flags)) for m in methods])
+        rows.append(["verdict rests on"] + [self.conclusions[m].basis for m in methods])
+        rows.append(["upper limit relied on"] + [format_number(self.conclusions[m].relied_upper_limit) for m in methods])
         rows.append(["the sample"] + [self.conclusions[m].verdict for m in methods])
         return [""] + [est.METHOD_NAMES[m] for m in methods], rows
 
@@ -162,7 +209,13 @@ class Evaluation(RecordMixin):
 
     def summary(self) -> str:
         header, rows = self._rows()
-        lines = [self._headline(), "", text_table(header, rows), "", f"Relied-on method: {est.METHOD_NAMES[self.primary]}.", self.conclusion.wording]
+        lines = [self._headline(), "", text_table(header, rows), "",
+                 f"Relied-on method: {est.METHOD_NAMES[self.primary]}; the verdict rests on its {self.basis}.",
+                 self.conclusion.wording]
+        if self.overstatement_bound is not None:
+            lines += ["", self.overstatement_bound.summary()]
+        elif self.bound_note:
+            lines += ["", f"Finite-sample bound: {self.bound_note}"]
         for m, why in self.not_applicable.items():
             lines.append(f"{est.METHOD_NAMES[m]}: not applicable: {why}")
         if self.flags:
@@ -175,6 +228,10 @@ class Evaluation(RecordMixin):
         header, rows = self._rows()
         parts = [f"<p><strong>{html.escape(self._headline())}</strong></p>", html_table(header, rows)]
         parts.append(f"<p>{html.escape(self.conclusion.wording)}</p>")
+        if self.overstatement_bound is not None:
+            parts.append(self.overstatement_bound._html_body())
+        elif self.bound_note:
+            parts.append(f"<p>Finite-sample bound: {html.escape(self.bound_note)}</p>")
         if self.flags:
             items = "".join(f"<li><code>{html.escape(f.code)}</code> {html.escape(f.message)}</li>" for f in self.flags)
             parts.append(f"<ul>{items}</ul>")
@@ -210,6 +267,95 @@ def _verdict_words(method, pm, uml, lml, tm, ria, unusable) -> tuple[str, str]:
         f"investigate the nature of the misstatements found, or ask for an adjustment, as the firm's "
         f"methodology directs.",
     )
+
+
+def _finite_bound(sample, strata, ria: float) -> tuple[Any, str]:
+    """The finite-sample bound at the risk of incorrect acceptance, or None and why not."""
+    if "largest_book_value" not in getattr(strata, "columns", ()):
+        return None, (
+            "not formed: the strata table has no largest_book_value column (each stratum's largest book "
+            "value), which the bound needs"
+        )
+    if "book_value" not in getattr(sample, "columns", ()):
+        return None, "not formed: the sample has no book values"
+    from auditmean.errors import AuditMeanError
+    from auditmean.evaluation.overstatement import overstatement_bound
+
+    try:
+        return overstatement_bound(sample, strata, confidence=1.0 - ria), ""
+    except AuditMeanError as exc:
+        return None, f"not formed: {exc}"
+
+
+def _monetary_unit_words(strata, tm: float, em: float, ria: float) -> str:
+    """What a monetary-unit sample for the same parameters would take, in a sentence (or "")."""
+    if "book_total" not in getattr(strata, "columns", ()):
+        return ""
+    totals = pd.to_numeric(strata["book_total"], errors="coerce").to_numpy(dtype=float)
+    positive = math.fsum(t for t in totals if math.isfinite(t) and t > 0)
+    if not positive > 0:
+        return ""
+    from auditmean.core.monetary import zero_error_bound
+    from auditmean.monetary_bound import monetary_unit_sample_size
+
+    try:
+        n = monetary_unit_sample_size(positive, tm, em, risk_incorrect_acceptance=ria)
+    except ParameterError:
+        return ""
+    z = float(zero_error_bound(positive, n, 1.0 - ria))
+    return (
+        f" A monetary-unit sample of about {n:,} draws from the positive book values would give an upper "
+        f"limit of {format_number(z)} if it found no misstatement."
+    )
+
+
+def _bound_verdict(method, n_flags, bound, note, uml, lml, tm, em, ria, strata) -> tuple[str, str, str, float]:
+    """Verdict and wording when the normal limit is not relied on: (verdict, words, basis, relied limit)."""
+    name = est.METHOD_NAMES[method]
+    risk = f"{ria:.0%}"
+    head = (
+        f"Warnings about the normal approximation were raised for {name} ({n_flags}), so its normal limits "
+        f"({format_number(lml)} to {format_number(uml)}) are shown for information only and the verdict "
+        "rests on a limit that holds."
+    )
+    if bound is None:
+        return (
+            "cannot be assessed",
+            f"{head} The finite-sample bound could not be formed ({note.removeprefix('not formed: ')}), so no "
+            "limit that holds is available and the sample cannot support a conclusion by itself."
+            + _monetary_unit_words(strata, tm, em, ria),
+            BASIS_NONE,
+            math.nan,
+        )
+    upper = float(bound.upper)
+    words = (
+        f"{head} At a {risk} risk of incorrect acceptance, the finite-sample upper bound of overstatement is "
+        f"{format_number(upper)}; it holds whatever the sample size, under the stated assumption that no item is "
+        "overstated by more than its book value."
+    )
+    if upper <= tm and lml >= -tm:
+        return (
+            "supports",
+            words + f" It is within the tolerable misstatement of {format_number(tm)}, and the sample supports "
+            "the conclusion that the book value is not overstated by more than tolerable.",
+            BASIS_BOUND,
+            upper,
+        )
+    if upper > tm:
+        why = (
+            f" It exceeds the tolerable misstatement of {format_number(tm)}: the sample cannot support the "
+            "conclusion with a limit that holds. A simple random sample of items can miss the few large "
+            "misstated items, so such a bound stays wide unless many items are examined. What would support "
+            "it: examining more items (most in the strata whose share of the bound is largest), or a "
+            "monetary-unit sample." + _monetary_unit_words(strata, tm, em, ria)
+        )
+    else:
+        why = (
+            f" The normal lower limit {format_number(lml)} is below minus the tolerable misstatement, so the "
+            "sample does not support the conclusion that the book value is not understated by more than "
+            "tolerable."
+        )
+    return "does not support", words + why, BASIS_BOUND, upper
 
 
 def evaluate(
@@ -276,8 +422,8 @@ def evaluate(
             raise ParameterError(name, f"got {risk!r}; a risk must lie strictly between 0 and 0.5 (e.g. 0.10)")
     ria = float(risk_incorrect_acceptance)
     rir = None if risk_incorrect_rejection is None else float(risk_incorrect_rejection)
-    z_a = float(stats.norm.ppf(1.0 - ria))
-    z_r = None if rir is None else float(stats.norm.ppf(1.0 - rir / 2.0))
+    z_a = float(ndtri(1.0 - ria))
+    z_r = None if rir is None else float(ndtri(1.0 - rir / 2.0))
     if planned_allowance is None:
         planned = (tm - em) * z_r / (z_a + z_r) if z_r is not None else tm - em
     else:
@@ -296,6 +442,7 @@ def evaluate(
     if primary not in methods:
         raise ParameterError("primary", f"got {primary!r}; it must be one of the methods evaluated: {', '.join(methods)}")
 
+    bound, bound_note = _finite_bound(sample, strata, ria)
     estimates: dict[str, Estimate] = {}
     opinions: dict[str, SecondOpinion] = {}
     conclusions: dict[str, MethodConclusion] = {}
@@ -325,7 +472,15 @@ def evaluate(
         achieved = (z_r if z_r is not None else z_a) * e.std_error
         adjusted = tm - z_a * e.std_error if achieved > planned else math.nan
         unusable = any(f.code == "interval-unusable" for f in e.flags)
-        verdict, words = _verdict_words(m, pm, uml, lml, tm, ria, unusable)
+        normality = [f for f in e.flags if f.code not in _NOT_NORMALITY]
+        normal_verdict, _ = _verdict_words(m, pm, uml, lml, tm, ria, unusable)
+        if normality:
+            verdict, words, basis, relied = _bound_verdict(
+                m, len(normality), bound, bound_note, uml, lml, tm, em, ria, strata
+            )
+        else:
+            verdict, words = _verdict_words(m, pm, uml, lml, tm, ria, unusable)
+            basis, relied = BASIS_NORMAL, uml
         so_upper = so.bootstrap_misstatement_upper if so is not None else math.nan
         so_lower = so.bootstrap_misstatement_lower if so is not None else math.nan
         so_verdict = None
@@ -334,17 +489,17 @@ def evaluate(
             if unusable:
                 so_verdict = "cannot be assessed"
             words += (
-                f" Warnings were raised about this estimate ({len(e.flags)}); the rescaling bootstrap puts the "
-                f"misstatement between {format_number(so_lower)} and {format_number(so_upper)}, which "
-                f"{'also supports' if so_verdict == 'supports' and verdict == 'supports' else 'supports' if so_verdict == 'supports' else 'does not support'} "
-                f"the same conclusion."
+                f" For information, the rescaling bootstrap puts the misstatement between "
+                f"{format_number(so_lower)} and {format_number(so_upper)}; it resamples the same few differences, "
+                "so it does not hold where the normal limit fails either."
             )
         words += " This supports, and does not replace, the auditor's professional judgement."
         conclusions[m] = MethodConclusion(
             method=m, projected_misstatement=pm, upper_limit=uml, lower_limit=lml,
             achieved_allowance=achieved, planned_allowance=planned, adjusted_allowance=adjusted,
             verdict=verdict, wording=words, second_opinion_upper=so_upper, second_opinion_lower=so_lower,
-            second_opinion_verdict=so_verdict,
+            second_opinion_verdict=so_verdict, basis=basis, relied_upper_limit=relied,
+            normal_verdict=normal_verdict,
         )
     from auditmean.core.bootstrap import seed_to_int
 
@@ -352,4 +507,5 @@ def evaluate(
         tolerable=tm, expected=em, risk_incorrect_acceptance=ria, risk_incorrect_rejection=rir,
         planned_allowance=planned, primary=primary, estimates=estimates, second_opinions=opinions,
         conclusions=conclusions, not_applicable=skipped, bootstrap_seed=seed_to_int(seed),
+        overstatement_bound=bound, bound_note=bound_note,
     )

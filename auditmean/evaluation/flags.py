@@ -122,9 +122,9 @@ def structural_flags(
                     rule="difference, ratio and regression intervals need non-zero differences in the sample",
                     source=_FEW_ERRORS_SOURCE,
                     advice=(
-                        "Do not read the zero width as precision; use the mean-per-unit interval or the "
-                        "second-opinion interval, or an approach designed for rare misstatement under "
-                        "the firm's methodology."
+                        "Do not read the zero width as precision; rely on the finite-sample bound "
+                        "(auditmean rests the verdict on it), or use a design built for rare misstatement, "
+                        "selection by monetary unit, as the firm's methodology allows."
                     ),
                 )
             )
@@ -140,7 +140,8 @@ def structural_flags(
                 stratum=None,
                 rule="a sampled population has a positive standard error",
                 source=_FEW_ERRORS_SOURCE,
-                advice="Use mean-per-unit or the second-opinion interval, or examine more items.",
+                advice="Rely on the finite-sample bound (the verdict rests on it), examine more items, or "
+                "use selection by monetary unit.",
             )
         )
     return tuple(flags)
@@ -305,7 +306,8 @@ def normality_flags(
                 stratum=None,
                 rule=f"|skewness of the stratified estimator| < {OVERALL_SKEWNESS_LIMIT}",
                 source=_OVERALL_SOURCE,
-                advice="Read the second-opinion interval; enlarge the samples of the strata that carry the skewness.",
+                advice="Rely on the finite-sample bound (the verdict rests on it); enlarge the samples of the "
+                "strata that carry the skewness, or use selection by monetary unit.",
             )
         )
     if method in est.BOOK_VALUE_METHODS and "nonzero_differences" in by_stratum:
@@ -322,7 +324,8 @@ def normality_flags(
                     stratum=None,
                     rule=f"at least {FEW_DIFFERENCES} non-zero differences in the sampled strata",
                     source="common audit practice, threshold quoted from memory; " + _FEW_ERRORS_SOURCE,
-                    advice="Prefer mean-per-unit or the second-opinion interval, or examine more items.",
+                    advice="Rely on the finite-sample bound (the verdict rests on it), examine more items, or "
+                    "use selection by monetary unit where misstatements are rare.",
                 )
             )
     return tuple(flags), g1, skew

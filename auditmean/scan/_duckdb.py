@@ -29,6 +29,7 @@ What the large-file path reads
 from __future__ import annotations
 
 import csv
+import functools
 import io
 import math
 import os
@@ -44,7 +45,6 @@ import numpy as np
 import pandas as pd
 import pyarrow as pa
 import pyarrow.compute as pc
-import pyarrow.parquet as pq
 
 from auditmean.amounts import _PLAIN, _explain, parse_amounts
 from auditmean.core.boundaries import StratumStatistics
@@ -75,8 +75,17 @@ DEFAULT_MEMORY_LIMIT = "200MB"
 #: Rows handed from DuckDB to Python at a time (fingerprint, error rows).
 BATCH_ROWS = 1_000_000
 
-#: Every character Python's str.strip() removes (str.isspace()).
-_WHITE_SPACE = "".join(chr(c) for c in range(sys.maxunicode + 1) if chr(c).isspace())
+
+@functools.cache
+def _white_space() -> str:
+    """Every character Python's str.strip() removes (str.isspace()).
+
+    Found by testing every code point, once, when first needed (not at
+    import: it takes about a tenth of a second, which every command's
+    start would pay).
+    """
+    return "".join(chr(c) for c in range(sys.maxunicode + 1) if chr(c).isspace())
+
 
 _CONTROL = r"'[\x00-\x1f\x7f]'"  # RE2 escapes inside a SQL text literal
 _ASCII_SPACE = r"[\t\n\x0b\x0c\r\x1c-\x1f ]"  # the ASCII characters str.strip() removes, for RE2
@@ -248,6 +257,8 @@ class DuckDBScan:
     # ------------------------------------------------------------------ reading
 
     def _parquet_header(self) -> tuple[list[str], list[str]]:
+        import pyarrow.parquet as pq  # here: only Parquet files need it
+
         try:
             pq.read_schema(self.source)
         except Exception as exc:  # pyarrow raises several types for a bad file
@@ -375,7 +386,7 @@ class DuckDBScan:
         self._set_base()
 
     def _set_base(self) -> None:
-        ws = _literal(_WHITE_SPACE)
+        ws = _literal(_white_space())
         self._ids = f"trim({self._raw['id']}, {ws})" if self._trim["id"] else self._raw["id"]
         label = ""
         if "label" in self._raw:
@@ -403,7 +414,7 @@ class DuckDBScan:
                 )
         stripped = strip_text(texts)
         if texts.null_count or pc.any(pc.equal(stripped, "")).as_py():
-            blank = f"{raw} IS NULL OR trim({raw}, {_literal(_WHITE_SPACE)}) = ''"
+            blank = f"{raw} IS NULL OR trim({raw}, {_literal(_white_space())}) = ''"
             count = int(self._query(f"SELECT count(*) FROM {self._relation} WHERE {blank}")[0][0])
             noun = "rows" if count > 1 else "row"
             article = "an" if what[0] in "aeiou" else "a"

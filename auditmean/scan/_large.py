@@ -26,7 +26,6 @@ from typing import Any, ClassVar
 
 import numpy as np
 import pandas as pd
-import pyarrow.parquet as pq
 
 from auditmean._records import RecordMixin, format_number, html_table, property_text
 from auditmean.core import boundaries as bnd
@@ -136,6 +135,8 @@ def choose_engine(
     if size >= threshold_bytes:
         return EngineChoice("duckdb", f"the file is {size / 2**20:,.1f} MiB, at or above the {limit} threshold")
     if ext in PARQUET_EXTENSIONS:
+        import pyarrow.parquet as pq  # here: only Parquet files need it
+
         try:
             rows = pq.ParquetFile(path).metadata.num_rows
         except Exception:  # a bad file: the in-memory reader reports it

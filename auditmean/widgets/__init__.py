@@ -12,9 +12,12 @@ engagement folder, and all of them share one
     PopulationPanel(state, source="ledger.csv", id_column="invoice_no", value_column="amount")
     StrataPanel(state, n_strata=4, top_cutoff=250_000)
     PlanPanel(state, tolerable=760_000, expected=150_000, risk_incorrect_acceptance=0.05)
+    # or the monetary-unit design: PlanPanel(state, design="monetary_unit", tolerable=760_000, ...)
 
 A panel holds widgets, calls the engine with plain values and shows what it
-returns; it computes no number itself. Every problem appears as a readable
+returns; it computes no number itself. The sample-size panel offers two
+designs (items in strata, or monetary units) and checks a stratified plan
+against its stated risk; the panels after it follow the design saved. Every problem appears as a readable
 message in the panel. ``auditmean app`` serves :class:`App` in the browser.
 """
 

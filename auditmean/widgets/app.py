@@ -27,7 +27,7 @@ from auditmean.widgets.plan import PlanPanel
 from auditmean.widgets.population import PopulationPanel
 from auditmean.widgets.results import ResultsPanel
 from auditmean.widgets.selection import SelectionPanel
-from auditmean.widgets.state import EngagementState, StateChange
+from auditmean.widgets.state import DESIGN_NAMES, MONETARY_UNIT, EngagementState, StateChange
 from auditmean.widgets.strata import StrataPanel
 from auditmean.widgets.style import STYLE_SHEET
 from auditmean.widgets.workpaper import WorkpaperPanel
@@ -112,7 +112,7 @@ class App(widgets.VBox):
         )
         self.header = widgets.HTML(
             STYLE_SHEET
-            + f'<div class="am-header am-panel"><b>auditmean</b> &nbsp; classical variables sampling for audit '
+            + f'<div class="am-header am-panel"><b>auditmean</b> &nbsp; audit sampling by strata or by monetary units '
             f"<span class='am-small' style='color:#cfd8de'>version {html.escape(__version__)}</span>{demo_words}</div>"
         )
         self.cautions = widgets.HTML(cautions_html())
@@ -142,8 +142,12 @@ class App(widgets.VBox):
         if s.population is not None:
             parts.append(f"population {s.population.source}: {s.population.count:,} items, book value "
                          f"{format_number(s.population.total)}")
-        if s.plan is not None:
-            parts.append(f"sample size {s.plan.total_size:,}")
+        monetary = s.chosen_design == MONETARY_UNIT
+        planned = s.monetary_plan if monetary else s.plan
+        if planned is not None:
+            parts.append(f"design: {DESIGN_NAMES[s.chosen_design]}")
+            parts.append(f"sample size {planned.sample_size:,} monetary units" if monetary
+                         else f"sample size {planned.total_size:,}")
         nxt = "read the population (tab 1) or resume an engagement folder"
         if s.engagement is not None:
             parts.append(f"engagement folder {s.engagement.folder}")
@@ -151,10 +155,11 @@ class App(widgets.VBox):
                 nxt = s.engagement.status().next_step
             except AuditMeanError as exc:
                 nxt = f"the engagement folder has a problem: {exc}"
-        elif s.plan is not None:
+        elif planned is not None:
             nxt = "save the plan in an engagement folder (tab 3), then draw the selection (tab 5)"
         elif s.population is not None:
-            nxt = "choose the strata (tab 2) and the planning inputs (tab 3)"
+            nxt = ("give the planning inputs (tab 3)" if monetary
+                   else "choose the strata (tab 2) and the planning inputs (tab 3)")
         words = "; ".join(parts)
         self.status.value = (
             f'<div class="am-small">{html.escape(words)}</div>' + box(f"<b>Next:</b> {html.escape(nxt)}", "note")

@@ -21,10 +21,17 @@ from auditmean.coverage import (
 from auditmean.coverage_plots import coverage_bars, estimate_distribution
 from auditmean.errors import InputError
 from auditmean.widgets._base import FigureView, Panel, Task, box
-from auditmean.widgets.state import EngagementState, StateChange
+from auditmean.widgets.state import MONETARY_UNIT, EngagementState, StateChange
 from auditmean.workpaper import COVERAGE_FILE
 
 __all__ = ["CoveragePanel"]
+
+#: What the panel says when the monetary-unit design is chosen.
+NOT_USED = (
+    "The monetary-unit design (chosen in step 3, Sample size) does not use this check: it simulates the "
+    "stratified design's normal limits on the population's book values. A monetary-unit sample is concluded on "
+    "bounds that hold in finite samples under the assumptions each states (see step 7, Conclusion)."
+)
 
 _TAINTS = (("the same share of book value", "fixed"), ("a share between two values", "uniform"),
            ("a share around a mean (beta)", "beta"))
@@ -57,22 +64,24 @@ class CoveragePanel(Panel):
     def __init__(self, state: EngagementState | None = None, *, replications: int = 1000, seed: int = 1) -> None:
         super().__init__(state)
         st = {"description_width": "15em"}
-        lay = widgets.Layout(width="26em")
+        def lay() -> widgets.Layout:  # one Layout per widget: hiding one must not hide the others
+            return widgets.Layout(width="26em")
+
         self.error_rate = widgets.BoundedFloatText(value=0.05, min=0.0, max=1.0, step=0.01,
-                                                   description="Share of items misstated", style=st, layout=lay)
+                                                   description="Share of items misstated", style=st, layout=lay())
         self.taint_kind = widgets.Dropdown(options=_TAINTS, value="fixed", description="Each is misstated by",
                                            style=st, layout=widgets.Layout(width="34em"))
-        self.taint = widgets.FloatText(value=0.2, description="share of book value", style=st, layout=lay)
-        self.taint_high = widgets.FloatText(value=0.6, description="up to", style=st, layout=lay)
+        self.taint = widgets.FloatText(value=0.2, description="share of book value", style=st, layout=lay())
+        self.taint_high = widgets.FloatText(value=0.6, description="up to", style=st, layout=lay())
         self.understatement = widgets.BoundedFloatText(value=0.0, min=0.0, max=1.0, step=0.05,
-                                                       description="Share understated", style=st, layout=lay)
+                                                       description="Share understated", style=st, layout=lay())
         self.estimators = widgets.SelectMultiple(options=[(METHOD_NAMES[m], m) for m in METHODS],
                                                  value=("mpu", "difference", "ratio"), description="Methods",
                                                  rows=5, style=st, layout=widgets.Layout(width="34em"))
         self.replications = widgets.BoundedIntText(value=int(replications), min=1, max=100_000,
-                                                   description="Simulated samples", style=st, layout=lay)
+                                                   description="Simulated samples", style=st, layout=lay())
         self.seed = widgets.BoundedIntText(value=int(seed), min=0, max=2**31 - 1, description="Seed", style=st,
-                                           layout=lay)
+                                           layout=lay())
         self.fixed = widgets.Checkbox(value=False, indent=False,
                                       description="one misstated population sampled again and again (faster)")
         self.run_button = widgets.Button(description="Run the coverage check", button_style="primary", icon="play",
@@ -91,12 +100,16 @@ class CoveragePanel(Panel):
         self.which.observe(self._handler(self._on_which), names="value")
         self.run_button.on_click(self._handler(lambda _b: self.run()))
         self.keep_button.on_click(self._handler(lambda _b: self.keep()))
-        self._observe_state(self._on_state, ("strata", "plan", "coverage", "engagement"))
+        self._observe_state(self._on_state, ("strata", "plan", "coverage", "engagement", "design"))
+        self.design_html = widgets.HTML("")
+        self.design_html.add_class("am-design-note")
+        self._inputs_box = widgets.HBox([
+            widgets.VBox([self.error_rate, self.taint_kind, self.taint, self.taint_high, self.understatement]),
+            widgets.VBox([self.estimators, self.replications, self.seed, self.fixed])])
         self.children = [
             self._head,
-            widgets.HBox([widgets.VBox([self.error_rate, self.taint_kind, self.taint, self.taint_high,
-                                        self.understatement]),
-                          widgets.VBox([self.estimators, self.replications, self.seed, self.fixed])]),
+            self.design_html,
+            self._inputs_box,
             widgets.HBox([self.run_button, self.keep_button]),
             self.task.box,
             self.message,
@@ -129,6 +142,8 @@ class CoveragePanel(Panel):
     def run(self) -> None:
         """Run the check in the background (see :meth:`wait`); Stop ends it early."""
         self.clear_message()
+        if self.state.chosen_design == MONETARY_UNIT:
+            raise InputError(NOT_USED, table="coverage check")
         strata, plan = self.state.strata, self.state.plan
         if strata is None or plan is None or not hasattr(strata, "codes"):
             raise InputError("plan the sample first (steps Strata and Sample size)", table="coverage check")
@@ -183,13 +198,17 @@ class CoveragePanel(Panel):
             self._show_distribution()
 
     def _show(self, state: EngagementState) -> None:
-        ready = state.plan is not None and state.strata is not None and hasattr(state.strata, "codes")
+        monetary = state.chosen_design == MONETARY_UNIT
+        self.design_html.value = box(html.escape(NOT_USED), "warning") if monetary else ""
+        self._inputs_box.layout.display = "none" if monetary else ""
+        ready = (not monetary and state.plan is not None and state.strata is not None
+                 and hasattr(state.strata, "codes"))
         self.run_button.disabled = not ready or self.task.running
         result = state.coverage
         self.keep_button.layout.display = "" if (result is not None and state.engagement is not None) else "none"
-        if result is None:
-            self.result_html.value = "" if ready else box("Plan the sample first (steps Strata and Sample size).",
-                                                          "warning")
+        if result is None or monetary:
+            self.result_html.value = "" if (ready or monetary) else box(
+                "Plan the sample first (steps Strata and Sample size).", "warning")
             self._pictures.layout.display = "none"
             return
         head = ""

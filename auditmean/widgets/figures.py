@@ -7,8 +7,10 @@
   stratum;
 * :func:`allocation`: the planned sample size of each stratum;
 * :func:`estimate_limits`: each method's projected misstatement with its
-  limits (and the second opinion where one was given) against the tolerable
-  misstatement.
+  limits (and the second opinion where one was given, and the finite-sample
+  bound where the verdict rests on it) against the tolerable misstatement;
+* :func:`monetary_bounds`: every bound of a monetary-unit evaluation, the
+  relied-on one marked, against the tolerable misstatement.
 
 The pictures format what the engine's records hold. Nothing here is a
 statistic of the audit; the only arithmetic is the picture's own (the bins
@@ -42,6 +44,7 @@ __all__ = [
     "value_share",
     "allocation",
     "estimate_limits",
+    "monetary_bounds",
     "VERDICT_COLOURS",
 ]
 
@@ -313,20 +316,29 @@ def allocation(plan: Any) -> go.Figure:
 def estimate_limits(evaluation: Any) -> go.Figure:
     """Each method's projected misstatement and limits, against the tolerable misstatement.
 
-    ``evaluation`` is an :class:`~auditmean.evaluation.Evaluation`. Three
+    ``evaluation`` is an :class:`~auditmean.evaluation.Evaluation`. Four
     traces, always: the normal-theory limits, the second-opinion limits
-    (rescaling bootstrap; only for methods that raised a warning), and the
-    projected misstatement. Vertical lines mark no misstatement and the
-    tolerable misstatement either way.
+    (rescaling bootstrap; only for methods that raised a warning), the
+    projected misstatement, and the upper limit the verdict rests on where
+    it is not the normal limit (the finite-sample bound). Vertical lines
+    mark no misstatement and the tolerable misstatement either way.
     """
     methods = list(evaluation.conclusions)
     names = [METHOD_NAMES[m] for m in methods]
     lim = {"x": [], "y": [], "hovertext": []}
     so = {"x": [], "y": [], "hovertext": []}
     px, py, ph, pc, ps = [], [], [], [], []
+    bx, by, bh = [], [], []
     for i, m in enumerate(methods):
         c = evaluation.conclusions[m]
         name = names[i]
+        basis = getattr(c, "basis", "normal limit")
+        relied = getattr(c, "relied_upper_limit", math.nan)
+        if basis != "normal limit" and relied is not None and math.isfinite(relied):
+            bx.append(relied)
+            by.append(i)
+            bh.append(f"{name}: the verdict rests on the {basis}, upper limit {_money(relied)}; the normal "
+                      "limits are shown for information")
         words = (
             f"{name}: projected misstatement {_money(c.projected_misstatement)}"
             f"<br>limits {_money(c.lower_limit)} to {_money(c.upper_limit)}"
@@ -359,6 +371,12 @@ def estimate_limits(evaluation: Any) -> go.Figure:
             marker=dict(symbol="diamond", size=ps, color=pc, line=dict(color=INK, width=1)),
         )
     )
+    fig.add_trace(
+        go.Scatter(
+            x=bx, y=by, mode="markers", hovertext=bh, hoverinfo="text", name="upper limit relied on (finite-sample bound)",
+            marker=dict(symbol="line-ns-open", size=22, color=INK, line=dict(color=INK, width=3)),
+        )
+    )
     tm = evaluation.tolerable
     fig.add_vline(x=0, line=dict(color=MUTED, width=1))
     fig.add_vline(x=tm, line=dict(color=BRICK, width=2, dash="dash"),
@@ -377,4 +395,50 @@ def estimate_limits(evaluation: Any) -> go.Figure:
                      range=None, zeroline=False)
     fig.update_xaxes(title="misstatement: book value less audited value (overstatement to the right)",
                      zeroline=False)
+    return fig
+
+
+def monetary_bounds(evaluation: Any) -> go.Figure:
+    """Every bound of a monetary-unit evaluation against the tolerable misstatement.
+
+    ``evaluation`` is a :class:`~auditmean.monetary_engagement.MonetaryUnitEvaluation`.
+    Two traces, always: each bound as a line from the projected misstatement
+    to its upper bound on overstatement (the relied-on one thicker, in the
+    colour of its verdict), and the upper bounds as markers. A dashed line
+    marks the tolerable misstatement.
+    """
+    table = evaluation.table()
+    names = [_esc(n) + ("  (relied on)" if r else "") for n, r in zip(table["name"], table["relied_on"])]
+    lx, ly, lh = [], [], []
+    mx, my, mh, mc, ms = [], [], [], [], []
+    colour = VERDICT_COLOURS.get(evaluation.verdict, INK)
+    for i, r in enumerate(table.itertuples(index=False)):
+        words = (f"{_esc(r.name)}: projected {_money(r.projected)}, upper bound on overstatement {_money(r.upper)}"
+                 f"<br>{_esc(r.guarantee)}")
+        lx += [r.projected, r.upper, None]
+        ly += [i, i, None]
+        lh += [words, words, None]
+        mx.append(r.upper)
+        my.append(i)
+        mh.append(words)
+        mc.append(colour if r.relied_on else SKY)
+        ms.append(16 if r.relied_on else 10)
+    fig = go.Figure()
+    fig.add_trace(go.Scatter(x=lx, y=ly, mode="lines", line=dict(color=SKY, width=6), hovertext=lh,
+                             hoverinfo="text", name="from the projected misstatement to the upper bound"))
+    fig.add_trace(go.Scatter(x=mx, y=my, mode="markers", hovertext=mh, hoverinfo="text", name="upper bound",
+                             marker=dict(symbol="diamond", size=ms, color=mc, line=dict(color=INK, width=1))))
+    tm = evaluation.tolerable
+    fig.add_vline(x=0, line=dict(color=MUTED, width=1))
+    fig.add_vline(x=tm, line=dict(color=BRICK, width=2, dash="dash"),
+                  annotation_text=f"tolerable {_money(tm)}", annotation_position="top left")
+    subtitle = (f"positive book value {_money(evaluation.book_total)}; {evaluation.sample_size:,} monetary units; "
+                f"every bound at {100 * evaluation.confidence:.4g}% confidence; the larger marker is the bound relied on")
+    _layout(fig, "Upper bounds on overstatement against the tolerable misstatement", subtitle,
+            height=190 + 55 * max(len(names), 1), hovermode="closest")
+    # room above the first bound for the tolerable line's label; the legend below the axis title
+    fig.update_yaxes(tickvals=list(range(len(names))), ticktext=names, range=[len(names) - 0.5, -1.0],
+                     zeroline=False)
+    fig.update_xaxes(title="overstatement: book value less audited value", zeroline=False, rangemode="tozero")
+    fig.update_layout(legend=dict(orientation="h", yanchor="top", y=-0.32, x=0), margin=dict(b=110))
     return fig

@@ -25,11 +25,11 @@ from auditmean.errors import InputError
 from auditmean.widgets._base import Panel, box
 from auditmean.widgets._demo import is_demo_population, write_demo_results
 from auditmean.widgets.population import file_columns, save_upload
-from auditmean.widgets.state import EngagementState, StateChange
+from auditmean.widgets.state import MONETARY_UNIT, EngagementState, StateChange
 
 __all__ = ["ResultsPanel"]
 
-_ALL_STRATA = "(every stratum)"
+_ALL_STRATA = "(all)"
 _VIEWS = (("all items", "all"), ("still to do", "todo"), ("entered", "done"))
 UPLOADS = "uploads"
 _HISTORY_ROWS = 40
@@ -110,9 +110,11 @@ class ResultsPanel(Panel):
         self.page_label = widgets.HTML("")
         self.page = 0
         self.rows = [_Row(self, i) for i in range(self.page_size)]
-        header = widgets.HBox([widgets.HTML(f"<b>{t}</b>", layout=widgets.Layout(width=w)) for t, w in (
+        labels = [widgets.HTML(f"<b>{t}</b>", layout=widgets.Layout(width=w)) for t, w in (
             ("item", "11em"), ("stratum", "6em"), ("book value", "9em"), ("audited value", "10em"),
-            ("note", "18em"), ("", "22em"))])
+            ("note", "18em"), ("", "22em"))]
+        self._group_label = labels[1]  # "stratum", or "group" for a monetary-unit selection
+        header = widgets.HBox(labels)
         self.grid = widgets.VBox([header] + [r.box for r in self.rows])
         self.grid.add_class("am-entry-grid")
 
@@ -369,6 +371,9 @@ class ResultsPanel(Panel):
         self._show(change.state)
 
     def _show(self, state: EngagementState) -> None:
+        monetary = state.chosen_design == MONETARY_UNIT
+        self._group_label.value = "<b>group</b>" if monetary else "<b>stratum</b>"
+        self.stratum_filter.description = "Group" if monetary else "Stratum"
         self._rebuild_current(state)
         n_sel, n_done = len(self._items), len(self._current)
         self.bar.max = max(n_sel, 1)

@@ -10,10 +10,17 @@ from it, so a panel never shows a plan made for other strata or a
 conclusion drawn from other audited values::
 
     population ─► strata ─► plan ─► engagement ─► selection ─► results ─► evaluation
-                               └─► coverage
+         │                   ├─► plan_check      ▲
+         │                   └─► coverage        │
+         └─► monetary_plan ──────────────────────┘
+                design ──────────────────────────┘
 
 (``reading`` and ``profile`` travel with the population, ``strata_options``
-with the strata, ``plan_options`` with the plan.) Nothing here computes a number.
+with the strata, ``plan_options`` with the plan.) ``design`` is the design
+chosen in the sample-size step: :data:`STRATIFIED` (``None`` means the same)
+or :data:`MONETARY_UNIT`; the stratified design plans in ``plan``, the
+monetary-unit design in ``monetary_plan``, and the engagement follows the
+one it was saved with. Nothing here computes a number.
 """
 
 from __future__ import annotations
@@ -28,12 +35,23 @@ from typing import Any
 from auditmean.population import profile as population_profile
 from auditmean.workflow import (
     PopulationReading,
+    design_of,
     engagement_plan,
     engagement_strata,
     open_engagement,
 )
 
-__all__ = ["EngagementState", "StateChange", "FIELDS"]
+__all__ = ["EngagementState", "StateChange", "FIELDS", "CLEARS", "STRATIFIED", "MONETARY_UNIT", "DESIGN_NAMES"]
+
+#: The two designs (the values of ``state.design``, as :func:`auditmean.workflow.design_of` names them).
+STRATIFIED = "stratified"
+MONETARY_UNIT = "monetary_unit"
+
+#: The designs in plain words.
+DESIGN_NAMES = {
+    STRATIFIED: "items in strata, projected by estimation",
+    MONETARY_UNIT: "monetary units, drawn with chance proportional to book value",
+}
 
 #: The values the state holds, in the order of the job.
 FIELDS: tuple[str, ...] = (
@@ -44,6 +62,9 @@ FIELDS: tuple[str, ...] = (
     "strata_options",
     "plan",
     "plan_options",
+    "plan_check",
+    "design",
+    "monetary_plan",
     "engagement",
     "selection",
     "results",
@@ -51,8 +72,10 @@ FIELDS: tuple[str, ...] = (
     "coverage",
 )
 
-_AFTER_POPULATION = ("reading", "profile", "strata", "strata_options", "plan", "plan_options", "engagement", "selection", "results", "evaluation", "coverage")
-_AFTER_STRATA = ("strata_options", "plan", "plan_options", "engagement", "selection", "results", "evaluation", "coverage")
+_AFTER_ENGAGEMENT = ("engagement", "selection", "results", "evaluation")
+_AFTER_POPULATION = ("reading", "profile", "strata", "strata_options", "plan", "plan_options", "plan_check",
+                     "monetary_plan") + _AFTER_ENGAGEMENT + ("coverage",)
+_AFTER_STRATA = ("strata_options", "plan", "plan_options", "plan_check") + _AFTER_ENGAGEMENT + ("coverage",)
 
 #: What setting a value clears (everything computed from it).
 CLEARS: dict[str, tuple[str, ...]] = {
@@ -60,9 +83,12 @@ CLEARS: dict[str, tuple[str, ...]] = {
     "reading": (),
     "profile": (),
     "strata": _AFTER_STRATA,
-    "plan": ("plan_options", "engagement", "selection", "results", "evaluation", "coverage"),
+    "plan": ("plan_options", "plan_check") + _AFTER_ENGAGEMENT + ("coverage",),
     "strata_options": (),
     "plan_options": (),
+    "plan_check": (),
+    "design": _AFTER_ENGAGEMENT,
+    "monetary_plan": _AFTER_ENGAGEMENT,
     "engagement": ("selection", "results", "evaluation"),
     "selection": ("results", "evaluation"),
     "results": ("evaluation",),
@@ -111,6 +137,14 @@ class EngagementState:
     plan, plan_options:
         :class:`auditmean.plan.Plan` and the keyword arguments of
         :func:`~auditmean.plan.plan_sample` that made it.
+    plan_check:
+        :class:`auditmean.plan_check.PlanCheck`: the coverage check of the
+        current stratified plan (does it reach the risk it states?).
+    design:
+        :data:`STRATIFIED` (or None, the same) or :data:`MONETARY_UNIT`.
+    monetary_plan:
+        :class:`auditmean.monetary_engagement.MonetaryUnitPlan` of the
+        monetary-unit design.
     engagement:
         :class:`auditmean.engagement.Engagement`: the folder where every
         step is recorded.
@@ -119,7 +153,9 @@ class EngagementState:
     results:
         :class:`auditmean.results.Results`, as recorded in the folder.
     evaluation:
-        :class:`auditmean.evaluation.Evaluation` of the current results.
+        :class:`auditmean.evaluation.Evaluation` of the current results
+        (:class:`auditmean.monetary_engagement.MonetaryUnitEvaluation` for
+        the monetary-unit design).
     coverage:
         :class:`auditmean.coverage.CoverageResult` of the current plan.
     """
@@ -128,6 +164,9 @@ class EngagementState:
         self._values: dict[str, Any] = dict.fromkeys(FIELDS)
         self._observers: list[tuple[Callable[[StateChange], None], frozenset[str] | None]] = []
         self._lock = threading.RLock()
+        #: Held by panels while background work writes into the engagement folder (the plan's check being
+        #: added to plan.json, a selection being drawn or extended), so that two such writes never interleave.
+        self.writing = threading.RLock()
         self.demo_data: Path | None = None if demo_data is None else Path(demo_data)
         unknown = [k for k in values if k not in FIELDS]
         if unknown:
@@ -146,6 +185,11 @@ class EngagementState:
         if name in FIELDS:
             raise AttributeError(f"set {name!r} with state.update({name}=...), so that the panels are told")
         super().__setattr__(name, value)
+
+    @property
+    def chosen_design(self) -> str:
+        """The design in use: the saved engagement's, else the one chosen (:data:`STRATIFIED` when none)."""
+        return self._values["design"] or STRATIFIED
 
     def get(self, name: str) -> Any:
         """The value of one of :data:`FIELDS` (None when not set)."""
@@ -217,28 +261,30 @@ class EngagementState:
 
         The population is read again from the recorded file and must be the
         one the engagement was built on (:func:`auditmean.workflow.open_engagement`
-        refuses another). The strata are recomputed and checked
-        (:func:`~auditmean.workflow.engagement_strata`); the plan, selection
-        and results are read from the folder. A saved evaluation is not
+        refuses another). The design is the one saved
+        (:func:`auditmean.workflow.design_of`). For the stratified design the
+        strata are recomputed and checked
+        (:func:`~auditmean.workflow.engagement_strata`) and the plan and its
+        saved coverage check are read; for the monetary-unit design its plan
+        is read. The selection and results are read from the folder. A saved evaluation is not
         loaded as numbers: evaluate again to see it (the result is the same).
         """
         eng, population = open_engagement(folder)
         reading = PopulationReading.from_dict(eng.plan()["population_reading"])
-        strata = engagement_strata(eng, population)
-        plan = engagement_plan(eng)
         selection = eng.selection()
         results = eng.results() if selection is not None else None
-        self.update(
-            population=population,
-            reading=reading,
-            profile=population_profile(population),
-            strata=strata,
-            plan=plan,
-            plan_options=None,
-            engagement=eng,
-            selection=selection,
-            results=results,
-        )
+        common = dict(population=population, reading=reading, profile=population_profile(population),
+                      engagement=eng, selection=selection, results=results)
+        if design_of(eng) == MONETARY_UNIT:
+            from auditmean.monetary_engagement import monetary_unit_plan
+
+            self.update(design=MONETARY_UNIT, monetary_plan=monetary_unit_plan(eng), **common)
+            return
+        strata = engagement_strata(eng, population)
+        plan = engagement_plan(eng)
+        check = eng.plan().get("plan_check")
+        self.update(strata=strata, plan=plan, plan_options=None, design=STRATIFIED,
+                    plan_check=_plan_check_from(check), **common)
 
     @classmethod
     def from_folder(cls, folder: str | os.PathLike[str], **kwargs: Any) -> EngagementState:
@@ -250,3 +296,17 @@ class EngagementState:
     def __repr__(self) -> str:
         have = [k for k in FIELDS if self._values[k] is not None]
         return f"EngagementState({', '.join(have) or 'empty'})"
+
+
+def _plan_check_from(record: Any) -> Any:
+    """A PlanCheck rebuilt from its saved dict (``plan.json``'s ``plan_check``), or None."""
+    if not isinstance(record, dict):
+        return None
+    from dataclasses import fields
+
+    from auditmean.plan_check import PlanCheck
+
+    names = [f.name for f in fields(PlanCheck)]
+    if any(n not in record for n in names):
+        return None
+    return PlanCheck(**{n: record[n] for n in names})

@@ -10,7 +10,7 @@ import ipywidgets as widgets
 from auditmean.strata import stratify
 from auditmean.widgets import figures
 from auditmean.widgets._base import FigureView, Panel, box
-from auditmean.widgets.state import EngagementState, StateChange
+from auditmean.widgets.state import MONETARY_UNIT, EngagementState, StateChange
 
 __all__ = ["StrataPanel", "STRATA_RULES"]
 
@@ -24,6 +24,13 @@ STRATA_RULES = (
 )
 
 _TOP_RULES = (("no top stratum", "none"), ("items at or above an amount", "amount"), ("the largest items", "count"))
+
+#: What the panel says when the monetary-unit design is chosen.
+NOT_USED = (
+    "The monetary-unit design (chosen in step 3, Sample size) does not use strata: each item's chance of "
+    "selection follows its book value, items at or above the sampling interval are examined in full, and "
+    "credits and zero balances are kept apart. Strata matter only to the stratified design."
+)
 
 
 class StrataPanel(Panel):
@@ -79,6 +86,8 @@ class StrataPanel(Panel):
         self.n_classes = widgets.BoundedIntText(value=n_classes, min=2, max=100_000, description="Classes",
                                                 tooltip="classes of the cumulative square-root rule",
                                                 layout=widgets.Layout(width="14em"))
+        self.design_html = widgets.HTML("")
+        self.design_html.add_class("am-design-note")
         self.summary_html = widgets.HTML("")
         self.summary_html.add_class("am-table")
         self.distribution = FigureView()
@@ -90,10 +99,11 @@ class StrataPanel(Panel):
         for w in (self.method, self.n_strata, self.top_rule, self.top_cutoff, self.top_items,
                   self.credits, self.zeros, self.n_classes):
             w.observe(self._handler(self._on_input), names="value")
-        self._observe_state(self._on_state, ("population", "strata", "engagement"))
+        self._observe_state(self._on_state, ("population", "strata", "engagement", "design"))
         self._top_box = widgets.HBox([self.top_rule, self.top_cutoff, self.top_items])
         self.children = [
             self._head,
+            self.design_html,
             widgets.HBox([self.method, self.n_classes]),
             self.n_strata,
             self._top_box,
@@ -106,7 +116,7 @@ class StrataPanel(Panel):
         self._sync_inputs()
         if self.state.population is not None and self.state.strata is None:
             self._guard(self.apply)
-        else:
+        if self.state.strata is None or self.summary_html.value == "":
             self._show(self.state)
 
     # ------------------------------------------------------------------ inputs
@@ -156,7 +166,9 @@ class StrataPanel(Panel):
             self.show_note("Read the population first (step Population).", "warning")
             return
         if self.state.engagement is not None:
-            self.show_note("The strata are recorded in the engagement folder and can no longer change.", "warning")
+            if self.state.chosen_design != MONETARY_UNIT:  # a monetary-unit engagement records no strata
+                self.show_note("The strata are recorded in the engagement folder and can no longer change.",
+                               "warning")
             return
         options = self.options()
         strata = stratify(population, **options)
@@ -197,6 +209,8 @@ class StrataPanel(Panel):
         self._sync_inputs()
 
     def _show(self, state: EngagementState) -> None:
+        monetary = state.chosen_design == MONETARY_UNIT
+        self.design_html.value = box(html.escape(NOT_USED), "warning") if monetary else ""
         strata = state.strata
         if strata is None or not hasattr(strata, "codes"):
             self.summary_html.value = ""
@@ -205,7 +219,7 @@ class StrataPanel(Panel):
         if state.engagement is not None:
             self._show_inputs_of(strata)
         self.summary_html.value = '<div class="am-strata">' + strata._html_body() + "</div>"
-        if state.engagement is not None:
+        if state.engagement is not None and not monetary:
             self.summary_html.value += box(
                 html.escape(f"These strata are recorded in {state.engagement.folder} with the plan."), "note"
             )

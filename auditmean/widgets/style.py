@@ -46,6 +46,8 @@ table.auditmean-table th:first-child, table.auditmean-table td:first-child {{ te
 .am-demo {{ background: #fff4d6; border: 2px dashed {OCHRE}; }}
 .am-row-saved {{ color: {PINE}; }}
 .am-row-error {{ color: {BRICK}; }}
+.am-relied td {{ background: #e3f1ec; font-weight: 600; }}
+.am-mu-bounds td:last-child {{ text-align: left; max-width: 28em; }}
 .am-header {{ background: {INK}; color: white; padding: 0.6em 1em; border-radius: 6px; }}
 .am-header b {{ font-size: 1.3em; letter-spacing: 0.02em; }}
 </style>

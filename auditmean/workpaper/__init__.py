@@ -11,7 +11,20 @@ source; the coverage check when one is recorded (``coverage.json`` in the
 folder, holding ``CoverageResult.to_dict()``); every formula with its
 published source; how to re-perform the selection and the evaluation; and
 the step log. The cautions and the warnings raised for the relied-on method
-come first.
+come first. The conclusion says what the verdict rests on (the normal limit,
+or, where warnings fired, the finite-sample bound with its assumptions,
+guarantee and per-stratum table, the normal limits then for information
+only), and the plan's own coverage check (``plan.json``'s ``"plan_check"``)
+is shown beside the risk it states, with the monetary-unit design for the
+same risk.
+
+An engagement of the monetary-unit design gets the sheets of
+:data:`MONETARY_SHEET_NAMES` instead: the plan (sample size from the
+confidence factors, interval, items examined in full, credits and zero
+balances kept apart and counted), the draws that selected each item and the
+rule to re-perform them by hand, what was found, and every bound (Stringer,
+error count, betting, the combined one) with its assumptions and guarantee,
+the relied-on one marked.
 
 Example
 -------
@@ -28,6 +41,7 @@ from pathlib import Path
 from auditmean.errors import ParameterError
 from auditmean.population import Population
 from auditmean.workpaper._content import COVERAGE_FILE, Workpaper, collect
+from auditmean.workpaper._monetary_sheets import MONETARY_SHEET_NAMES
 from auditmean.workpaper._sheets import SHEET_NAMES
 from auditmean.workpaper.report_html import report_html, save_html
 from auditmean.workpaper.workbook import save_workbook
@@ -36,6 +50,7 @@ __all__ = [
     "COVERAGE_FILE",
     "DEFAULT_NAMES",
     "SHEET_NAMES",
+    "MONETARY_SHEET_NAMES",
     "Workpaper",
     "collect_workpaper",
     "write_workbook",

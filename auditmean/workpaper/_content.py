@@ -16,6 +16,17 @@ engine's, and the strata and plan are those recorded in ``plan.json``. The
 one figure added for reading is each examined item's difference (audited
 value minus book value).
 
+Both designs
+------------
+An engagement of the stratified design (``plan.json`` without ``design``,
+or ``"design": "stratified"``) fills :attr:`Workpaper.plan` and
+:attr:`Workpaper.strata`; the plan's coverage check, when the plan was
+checked, is read from ``plan.json``'s ``"plan_check"``
+(``PlanCheck.to_dict()``). An engagement of the monetary-unit design
+(``"design": "monetary_unit"``) fills :attr:`Workpaper.monetary_plan`
+instead (``MonetaryUnitPlan``), its items carry the draws that selected
+them, and its saved evaluation is a ``"monetary_unit_evaluation"``.
+
 The coverage check
 ------------------
 A coverage check is kept in the engagement folder as ``coverage.json``
@@ -46,7 +57,7 @@ from auditmean.errors import ParameterError, RecordError
 from auditmean.plan import Plan
 from auditmean.population import Population, Profile, profile
 from auditmean.selection import VerificationResult
-from auditmean.workflow import engagement_plan, open_engagement, verify_engagement
+from auditmean.workflow import design_of, engagement_plan, open_engagement, verify_engagement
 
 __all__ = ["COVERAGE_FILE", "COVERAGE_PATTERN", "Workpaper", "collect"]
 
@@ -78,9 +89,10 @@ class Workpaper(RecordMixin):
     reading:
         How the population file is read (``plan.json``'s ``population_reading``).
     strata:
-        The strata record of ``plan.json`` (``Strata.to_dict()``).
+        The strata record of ``plan.json`` (``Strata.to_dict()``); empty for
+        the monetary-unit design.
     plan:
-        The saved plan.
+        The saved stratified plan; None for the monetary-unit design.
     selection:
         The content of ``selection.json``, or None before a selection.
     items:
@@ -88,7 +100,11 @@ class Workpaper(RecordMixin):
         ``order``, ``item_id``, ``stratum``, ``key``, ``book_value``,
         ``audited_value`` (NaN until entered), ``difference`` (audited
         minus book), ``note``, ``entered_by``, ``entered_at``, ``source``,
-        ``entries``. None before a selection.
+        ``entries``. For the monetary-unit design, in item-id order (the
+        order of the cumulative book value), with ``hits``,
+        ``examined_in_full``, ``units``, ``unit_from`` and ``unit_to`` in
+        place of ``key`` and ``stratum`` holding ``"in full"`` or
+        ``"by units"``. None before a selection.
     entries:
         Every results entry ever made (the results log), oldest first.
     verification:
@@ -108,6 +124,14 @@ class Workpaper(RecordMixin):
         Sentences a reader must see: an evaluation older than the current
         results or selection, items without an audited value, a selection
         that does not re-perform.
+    design:
+        ``"stratified"`` or ``"monetary_unit"`` (``plan.json``).
+    monetary_plan:
+        The saved ``MonetaryUnitPlan`` of the monetary-unit design, else None.
+    plan_check:
+        ``PlanCheck.to_dict()`` as saved in ``plan.json`` under
+        ``"plan_check"`` (the coverage check run on the proposed plan), or
+        None when the plan was not checked.
     """
 
     record_kind = "workpaper"
@@ -121,7 +145,7 @@ class Workpaper(RecordMixin):
     population_profile: Profile = field(repr=False)
     reading: dict[str, Any]
     strata: dict[str, Any]
-    plan: Plan = field(repr=False)
+    plan: Plan | None = field(repr=False)
     selection: dict[str, Any] | None = field(repr=False)
     items: pd.DataFrame | None = field(repr=False)
     entries: pd.DataFrame = field(repr=False)
@@ -132,6 +156,14 @@ class Workpaper(RecordMixin):
     coverage: tuple[tuple[str, dict[str, Any]], ...] = field(repr=False)
     log: tuple[dict[str, Any], ...] = field(repr=False)
     notes: tuple[str, ...] = ()
+    design: str = "stratified"
+    monetary_plan: Any = field(default=None, repr=False)
+    plan_check: dict[str, Any] | None = field(default=None, repr=False)
+
+    @property
+    def monetary(self) -> bool:
+        """True for an engagement of the monetary-unit design."""
+        return self.design == "monetary_unit"
 
     @property
     def evaluation(self) -> dict[str, Any] | None:
@@ -148,6 +180,7 @@ class Workpaper(RecordMixin):
             "schema_version": SCHEMA_VERSION,
             "kind": self.record_kind,
             "folder": self.folder,
+            "design": self.design,
             "generated_at": self.generated_at,
             "tool_version": self.tool_version,
             "purpose": self.purpose,
@@ -156,21 +189,33 @@ class Workpaper(RecordMixin):
             "items_selected": None if self.items is None else len(self.items),
             "evaluation_file": self.evaluation_file,
             "coverage_files": [name for name, _ in self.coverage],
+            "plan_checked": self.plan_check is not None,
             "selection_matches": None if self.verification is None else bool(self.verification.match),
             "notes": list(self.notes),
         }
 
     def summary(self) -> str:
         ev = self.evaluation
+        if self.monetary:
+            mp = self.monetary_plan
+            plan_line = (f"Plan (monetary-unit design): {mp.sample_size:,} monetary units, sampling interval "
+                         f"{format_number(mp.interval)}")
+            relied = None if ev is None else ev.get("relied_on")
+        else:
+            plan_line = f"Plan: {self.plan.total_size:,} items for {self.plan.method} estimation"
+            relied = None if ev is None else ev.get("primary")
         lines = [
             f"Workpaper of the engagement in {self.folder}",
             f"Population {self.population.source}: {self.population.count:,} items, book total "
             f"{format_number(self.population.total)}, content SHA-256 {self.population.content_sha256}",
-            f"Plan: {self.plan.total_size:,} items for {self.plan.method} estimation",
+            plan_line,
             "Selection: " + ("none yet" if self.selection is None else f"{len(self.items):,} items, seed {self.seed!r}"),
-            "Evaluation: " + ("none saved" if ev is None else f"{self.evaluation_file} ({ev['primary']} relied on)"),
-            f"Coverage checks: {len(self.coverage)}",
+            "Evaluation: " + ("none saved" if ev is None else f"{self.evaluation_file} ({relied} relied on)"),
         ]
+        if not self.monetary:
+            lines.append(f"Coverage checks: {len(self.coverage)}")
+            if self.plan_check is not None:
+                lines.append(f"Plan check: {self.plan_check.get('line', '')}")
         lines += [f"Note: {n}" for n in self.notes]
         return "\n".join(lines)
 
@@ -189,6 +234,17 @@ def _default_purpose(plan: Plan, population: Population) -> str:
     )
 
 
+def _default_monetary_purpose(plan: Any, population: Population) -> str:
+    return (
+        f"To test, by selecting monetary units (each item's chance of selection in proportion to its book "
+        f"value), whether the positive book value of the {population.count:,} items of {population.source} "
+        f"({format_number(plan.book_total)} in {plan.positive_items:,} items) is overstated by more than the "
+        f"tolerable misstatement of {format_number(plan.tolerable)}, at a risk of incorrect acceptance of "
+        f"{plan.risk_incorrect_acceptance:.0%}. Credits and zero balances are kept apart and counted; this "
+        "sample does not cover them."
+    )
+
+
 def _read_coverage(path: Path) -> dict[str, Any]:
     try:
         data = json.loads(path.read_bytes().decode("utf-8"))
@@ -198,13 +254,15 @@ def _read_coverage(path: Path) -> dict[str, Any]:
         raise RecordError(str(path), f"is not UTF-8 text (byte {exc.start})") from None
     except json.JSONDecodeError as exc:
         raise RecordError(str(path), f"is not valid JSON (line {exc.lineno}, column {exc.colno}: {exc.msg})") from None
-    if not isinstance(data, dict) or data.get("kind") != "coverage_check":
+    kinds = {"coverage_check": ("by_estimator", "strata"), "monetary_unit_coverage_check": ("by_bound",)}
+    if not isinstance(data, dict) or data.get("kind") not in kinds:
         raise RecordError(
             str(path),
-            "is not a coverage check (a JSON object of kind 'coverage_check', CoverageResult.to_dict()); "
+            "is not a coverage check (a JSON object of kind 'coverage_check', CoverageResult.to_dict(), or "
+            "'monetary_unit_coverage_check', MonetaryUnitCoverage.to_dict()); "
             f"rename or remove it: every {COVERAGE_PATTERN} file in the engagement folder is read as one",
         )
-    for key in ("by_estimator", "strata"):
+    for key in kinds[data["kind"]]:
         if not isinstance(data.get(key), list):
             raise RecordError(str(path), f"has no table {key!r}; not a complete coverage check")
     return data
@@ -226,6 +284,21 @@ def _pick_evaluation(eng: Engagement, evaluations: list[dict[str, Any]], evaluat
         f"no saved evaluation named {name!r} in {Path(eng.folder) / 'evaluations'}; the saved ones are "
         + ", ".join(repr(e["file"]) for e in evaluations),
     )
+
+
+def _monetary_items_table(selection: pd.DataFrame, current: pd.DataFrame) -> pd.DataFrame:
+    """The monetary-unit selection in item-id order (as recorded) with the current audited values."""
+    sel = selection[["item_id", "stratum", "book_value", "hits", "examined_in_full", "units", "unit_from",
+                     "unit_to"]].copy().reset_index(drop=True)
+    sel.insert(0, "order", np.arange(1, len(sel) + 1, dtype=np.int64))
+    cur = current.set_index("item_id")
+    sel["audited_value"] = sel["item_id"].map(cur["audited_value"]).astype(float)
+    sel["difference"] = sel["audited_value"] - sel["book_value"]
+    for col in ("note", "entered_by", "entered_at", "source"):
+        s = sel["item_id"].map(cur[col]).astype(object)
+        sel[col] = s.where(s.notna(), None)
+    sel["entries"] = sel["item_id"].map(cur["entries"]).fillna(0).astype(np.int64)
+    return sel
 
 
 def _items_table(plan: Plan, selection: pd.DataFrame, population: Population, current: pd.DataFrame) -> pd.DataFrame:
@@ -335,13 +408,28 @@ def collect(
     if purpose is not None and not isinstance(purpose, str):
         raise ParameterError("purpose", f"must be text or None, got {type(purpose).__name__}")
     eng, pop = open_engagement(folder, population)
-    plan = engagement_plan(eng)
+    design = design_of(eng)
+    if design == "monetary_unit":
+        from auditmean.monetary_engagement import monetary_unit_plan
+
+        plan, monetary_plan = None, monetary_unit_plan(eng)
+    else:
+        plan, monetary_plan = engagement_plan(eng), None
     rec = eng.plan() or {}
+    plan_check = rec.get("plan_check")
+    if plan_check is not None and not (isinstance(plan_check, dict) and plan_check.get("kind") == "plan_check"):
+        raise RecordError(
+            str(Path(eng.folder) / "plan.json"),
+            "holds a 'plan_check' entry that is not a plan check (PlanCheck.to_dict(), kind 'plan_check')",
+        )
     selection_rec = eng.selection_record()
     selection = eng.selection()
     if selection is not None:
         results = eng.results()
-        items = _items_table(plan, selection, pop, results.current)
+        if monetary_plan is not None:
+            items = _monetary_items_table(selection, results.current)
+        else:
+            items = _items_table(plan, selection, pop, results.current)
         entries = results.log.copy()
     else:
         items = None
@@ -359,11 +447,12 @@ def collect(
         notes.insert(0, "The selection does NOT re-perform from the population and the recorded seed: "
                         f"{len(verification.differences):,} differences (see Re-performance).")
     given = purpose.strip() if isinstance(purpose, str) and purpose.strip() else None
+    default = _default_monetary_purpose(monetary_plan, pop) if monetary_plan is not None else _default_purpose(plan, pop)
     return Workpaper(
         folder=str(eng.folder),
         generated_at=datetime.now(timezone.utc).isoformat(timespec="seconds"),
         tool_version=__version__,
-        purpose=given or _default_purpose(plan, pop),
+        purpose=given or default,
         engagement=eng.info,
         population=pop,
         population_profile=profile(pop),
@@ -380,5 +469,8 @@ def collect(
         coverage=coverage,
         log=tuple(eng.log()),
         notes=tuple(notes),
+        design=design,
+        monetary_plan=monetary_plan,
+        plan_check=plan_check,
     )
 

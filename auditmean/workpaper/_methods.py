@@ -12,7 +12,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 from typing import Any
 
-__all__ = ["Method", "METHODS", "used_here"]
+__all__ = ["Method", "METHODS", "used_here", "methods_for"]
 
 
 @dataclass(frozen=True)
@@ -23,6 +23,8 @@ class Method:
     source: str
     where: str
     used_when: str = "always"
+    #: the design the row belongs to: "stratified", "monetary_unit" or "both"
+    design: str = "stratified"
 
 
 _COCHRAN = "Cochran, W. G. (1977), Sampling Techniques, 3rd ed., Wiley"
@@ -35,32 +37,32 @@ METHODS: tuple[Method, ...] = (
         "item id, TAB, book value rounded to 2 decimals (no separators, 0.00 for -0.00), "
         "[TAB, preassigned stratum], LF",
         "auditmean's own definition; SHA-256 as in NIST (2015), FIPS PUB 180-4, Secure Hash Standard",
-        "auditmean.population.content_fingerprint",
+        "auditmean.population.content_fingerprint", design="both",
     ),
     Method(
         "population", "file fingerprint",
         "SHA-256 of the population file's bytes exactly as read (the same as `sha256sum FILE`)",
         "NIST (2015), FIPS PUB 180-4, Secure Hash Standard",
-        "auditmean.population.load_population",
+        "auditmean.population.load_population", design="both",
     ),
     Method(
         "population", "total of book values",
         "the exact sum of the book values, rounded once to the nearest double (independent of row order)",
         "correct rounding as IEEE 754 defines it; the number math.fsum gives "
         "(Shewchuk, J. R. (1997), Discrete & Computational Geometry 18, 305-363)",
-        "auditmean.core.profile.exact_sum",
+        "auditmean.core.profile.exact_sum", design="both",
     ),
     Method(
         "population", "skewness G1",
         "g1 = m3 / m2^1.5 with m_k = sum((x - mean)^k) / n; G1 = g1 sqrt(n (n - 1)) / (n - 2)",
         "Joanes, D. N. and Gill, C. A. (1998), The Statistician 47, 183-189 (statistic G1)",
-        "auditmean.core.moments.skewness_from_sums",
+        "auditmean.core.moments.skewness_from_sums", design="both",
     ),
     Method(
         "population", "quantiles",
         "x_(j) + g (x_(j+1) - x_(j)), h = (n - 1) p + 1, j = floor(h), g = h - j (values sorted)",
         "Hyndman, R. J. and Fan, Y. (1996), The American Statistician 50(4), 361-365, definition 7",
-        "auditmean.core.profile.quantiles",
+        "auditmean.core.profile.quantiles", design="both",
     ),
     # --- strata
     Method(
@@ -139,6 +141,15 @@ METHODS: tuple[Method, ...] = (
         "auditmean.core.sizing.allocate", "allocation:proportional",
     ),
     Method(
+        "planning", "fewest items per stratum, from the checks",
+        "each stratum at least max(30, floor(28 + 25 G1^2) + 1) items, G1 the skewness of its book values, so "
+        "that the plan raises none of the normal-approximation checks on the book values; a stratum that "
+        "cannot reach it is examined in full",
+        "28 + 25 G1^2: Sugden, R. A., Smith, T. M. F. and Jones, R. P. (2000), JRSS B 62(4), 787-793 "
+        "(the constant 28 quoted from memory); 30 items: rule of thumb, common practice, no published source",
+        "auditmean.core.normality.size_passing_checks", "minimum:checks",
+    ),
+    Method(
         "planning", "equal allocation",
         "n_h = lambda, clipped to [minimum, N_h]",
         "common practice; no published source",
@@ -152,6 +163,35 @@ METHODS: tuple[Method, ...] = (
         f"derived in auditmean.plan; the ratio residual variance as in {_COCHRAN}, section 6.3",
         "auditmean.plan._pattern_std_devs", "std_dev_source:pattern",
     ),
+    Method(
+        "planning", "does the plan reach its stated risk?",
+        "the planned sample drawn R times from the population's own book values, misstated by the pattern "
+        "scaled so the true misstatement equals TM; simulated risk of incorrect acceptance p = share of "
+        "samples whose upper limit is at most TM; Monte Carlo s.e. sqrt(p (1 - p) / R); the plan misses its "
+        "risk when p exceeds the planned RIA by more than two s.e.",
+        "the approach of Neter, J. and Loebbecke, J. K. (1975), AICPA; the two-standard-error rule is "
+        "auditmean's own",
+        "auditmean.plan_check.check_plan", "plan_check",
+    ),
+    Method(
+        "planning", "monetary-unit sample size",
+        "n = the smallest n with B F(n EM / B) / n <= TM, B the positive book total, F(k) = the 1 - RIA "
+        "quantile of a gamma distribution with shape k + 1 (the Poisson confidence factor; non-whole k for "
+        "the expansion for expected misstatement); with EM = 0, n = ceil(F(0) B / TM); binomial basis: "
+        "B x beta quantile (1 - RIA; k + 1, n - k) <= TM",
+        "Leslie, D. A., Teitlebaum, A. D. and Anderson, R. J. (1979), Dollar-Unit Sampling, Copp Clark "
+        "Pitman, and the AICPA audit sampling guide (factor tables quoted from memory); Poisson limits as "
+        "gamma quantiles: Garwood, F. (1936), Biometrika 28, 437-442",
+        "auditmean.core.monetary.sample_size", "monetary_size", "both",
+    ),
+    Method(
+        "planning", "monetary-unit upper limit with no misstatement found",
+        "B U_0 with U_0 the bound relied on for n draws of taint 0 (Stringer: B F(0) / n, e.g. about "
+        "3.00 B / n at 95%)",
+        "Stringer, K. W. (1963), Proceedings of the Business and Economic Statistics Section, ASA, 405-411 "
+        "(pages from memory)",
+        "auditmean.core.monetary.zero_error_bound", "monetary_size", "both",
+    ),
     # --- selection
     Method(
         "selection", "key of an item",
@@ -159,6 +199,24 @@ METHODS: tuple[Method, ...] = (
         "permanent random numbers: Ohlsson, E. (1995), in Cox et al. (eds), Business Survey Methods, Wiley, "
         "ch. 9 (chapter and pages from memory); SHA-256: NIST (2015), FIPS PUB 180-4",
         "auditmean.selection.item_keys",
+    ),
+    Method(
+        "selection", "monetary units drawn",
+        "items with a positive book value in cents c = round(100 x book value) laid out in item-id order, "
+        "C_i = C_(i-1) + c_i, B = C_last; draw k = 1..n: u_k = first 13 hexadecimal digits of "
+        'SHA-256(UTF-8(seed + ":unit:" + k)), drawn cent p_k = floor(u_k B / 2^52), the item with '
+        "C_(i-1) <= p_k < C_i; draws independent, with replacement",
+        "selection with probability proportional to size, with replacement: Hansen, M. H. and Hurwitz, W. N. "
+        "(1943), Annals of Mathematical Statistics 14, 333-362 (cited from memory); SHA-256: NIST (2015), "
+        "FIPS PUB 180-4",
+        "auditmean.monetary_selection.select_monetary_units", "always", "monetary_unit",
+    ),
+    Method(
+        "selection", "items examined in full (monetary units)",
+        "every item with c n >= B (book value at or above the sampling interval J = B / n) is examined in "
+        "full whatever the draws; a draw falling in it is absorbed, and its misstatement is added exactly",
+        "common practice in monetary-unit sampling (Leslie, Teitlebaum and Anderson 1979, from memory)",
+        "auditmean.monetary_selection.select_monetary_units", "always", "monetary_unit",
     ),
     Method(
         "selection", "the sample of a stratum",
@@ -254,6 +312,89 @@ METHODS: tuple[Method, ...] = (
         "auditmean's statement of the classical rule; the conclusion itself is the auditor's",
         "auditmean.evaluation.conclusion",
     ),
+    Method(
+        "conclusion", "finite-sample bound for stratified samples",
+        "in stratum h, x = max(book - audited, 0) / u_h with u_h its largest book value (no item overstated "
+        "by more than its book value), in the order drawn; capital K(m) = prod_t (1 + c (mu_t(m) - x_t)), "
+        "mu_t(m) = (N_h m - sum_(i<t) x_i) / (N_h - t + 1) the mean of the items not yet drawn, c a constant "
+        "bet; a total overstatement T is rejected when the smallest product of the strata's capitals over "
+        "every split of T among them reaches 1 / alpha (Ville's inequality); the bound is the largest total "
+        "not rejected, strata examined in full added at their exact misstatement",
+        "Waudby-Smith, I. and Ramdas, A. (2024), Estimating means of bounded random variables by betting, "
+        "JRSS B 86(1), 1-27, sections 4 and 6, and (2020), Confidence sequences for sampling without "
+        "replacement, NeurIPS 33; Spertus, J. V. and Stark, P. B. (2022), Sweeter than SUITE: supermartingale "
+        "stratified union-intersection tests of elections, E-Vote-ID 2022, LNCS 13553 (page numbers from "
+        "memory); the minimum over splits: auditmean's own derivation (see the module)",
+        "auditmean.core.finite_bounds.stratified_overstatement_bound", "finite_bound",
+    ),
+    Method(
+        "conclusion", "the verdict rests on a limit that holds",
+        "where a warning about the normal approximation is raised for a method, its verdict on overstatement "
+        "rests on the finite-sample upper bound (supports when that bound is at most TM and the normal lower "
+        "limit at least -TM) and its normal limits are for information only; otherwise on its normal limits",
+        "auditmean's own rule; the conclusion itself is the auditor's",
+        "auditmean.evaluation.conclusion",
+    ),
+    # --- monetary-unit evaluation
+    Method(
+        "monetary units", "taint and projected misstatement",
+        "taint t = (book - audited) / book of the item a draw falls in, once per draw; projected "
+        "misstatement = exact misstatement of the items examined in full + B_r x mean taint of the n_r draws "
+        "in the remainder (B_r its book value)",
+        "Leslie, Teitlebaum and Anderson (1979) (from memory)",
+        "auditmean.monetary_bound.monetary_unit_bound", "always", "monetary_unit",
+    ),
+    Method(
+        "monetary units", "upper bound of overstatement",
+        "exact misstatement of the items examined in full + B_r U, U an upper bound on the remainder's mean "
+        "overstatement taint per monetary unit, on max(t, 0): an understatement never lowers it; assumes "
+        "audited >= 0 (no taint above 100%)",
+        "the usual evaluation of a monetary-unit sample (Leslie, Teitlebaum and Anderson 1979, from memory); "
+        "the conservative treatment of understatements is auditmean's stated rule",
+        "auditmean.monetary_bound.monetary_unit_bound", "always", "monetary_unit",
+    ),
+    Method(
+        "monetary units", "bound on understatement",
+        "-(net misstatement of the items examined in full) + B_r U', U' the same method's bound on the mean "
+        "of max(-t, 0), a separate bound; assumes no item is understated by more than its book value "
+        "(not formed otherwise)",
+        "the separate understatement bound of monetary-unit sampling (Leslie, Teitlebaum and Anderson 1979, "
+        "from memory)",
+        "auditmean.monetary_bound.monetary_unit_bound", "always", "monetary_unit",
+    ),
+    Method(
+        "monetary units", "Stringer bound",
+        "U = [F(0) + sum_i t_(i) (F(i) - F(i-1))] / n_r, the positive taints ranked from the largest, F the "
+        "Poisson factor (gamma quantile, shape i + 1); capped at 1",
+        "Stringer, K. W. (1963), Proceedings of the Business and Economic Statistics Section, ASA, 405-411 "
+        "(pages from memory); no general proof of its confidence; conservative in published simulations",
+        "auditmean.core.monetary.stringer_upper", "bound:stringer", "monetary_unit",
+    ),
+    Method(
+        "monetary units", "error-count bound",
+        "every draw with a positive taint counted as a 100% taint: U = beta quantile (confidence; k + 1, "
+        "n_r - k), the Clopper-Pearson upper limit of the share of draws in error (1 when k = n_r)",
+        "Clopper, C. J. and Pearson, E. S. (1934), Biometrika 26, 404-413",
+        "auditmean.core.monetary.count_upper", "bound:count", "monetary_unit",
+    ),
+    Method(
+        "monetary units", "betting bound",
+        "for a candidate mean m, the capital K_t(m) = prod_(i<=t) (1 + lambda_i (m - x_i)) with predictable "
+        "plug-in bets lambda_i, truncated at cap / (1 - m); U = the smallest m whose capital reaches "
+        "1 / alpha at some draw (Ville's inequality), found by bisection; x the overstatement taints in draw "
+        "order",
+        "Waudby-Smith, I. and Ramdas, A. (2024), Estimating means of bounded random variables by betting, "
+        "JRSS B 86(1), 1-27 (pages from memory); Ville, J. (1939), Etude critique de la notion de collectif, "
+        "Gauthier-Villars",
+        "auditmean.core.monetary.betting_upper", "bound:betting", "monetary_unit",
+    ),
+    Method(
+        "monetary units", "error count or betting",
+        "the smaller of the error-count bound at risk w alpha and the betting bound at risk (1 - w) alpha; "
+        "holds at 1 - alpha by the union (Bonferroni) bound; w chosen by measurement",
+        "Boole's inequality; the two bounds as above",
+        "auditmean.core.monetary.count_or_betting_upper", "bound:count_or_betting", "monetary_unit",
+    ),
     # --- warnings
     Method(
         "warnings", "items per stratum",
@@ -334,7 +475,13 @@ def used_here(method: Method, facts: dict[str, Any]) -> bool:
     ``ratio_variance`` (True when a ratio estimator was evaluated),
     ``single_item`` (True when a stratum was given the average variance),
     ``second_opinion`` (True when one was computed), ``coverage`` (True
-    when a coverage check is recorded) and ``taints`` (their kinds).
+    when a coverage check is recorded), ``taints`` (their kinds),
+    ``minimum`` (the plan's minimum per stratum: ``"checks"`` or a number),
+    ``plan_check`` (True when the plan was checked by simulation),
+    ``finite_bound`` (True when the evaluation formed the finite-sample
+    bound), ``bounds`` (the monetary-unit bounds computed) and ``monetary_size``
+    (True when a monetary-unit sample size was computed: the plan's design
+    or the plan check's alternative).
     """
     cond = method.used_when
     if cond == "always":
@@ -350,4 +497,13 @@ def used_here(method: Method, facts: dict[str, Any]) -> bool:
         return value in facts.get("methods", ())
     if key == "coverage":
         return bool(facts.get("coverage")) if not value else value in facts.get("taints", ())
+    if key == "minimum":
+        return facts.get("minimum") == value
+    if key == "bound":
+        return value in facts.get("bounds", ())
     return bool(facts.get(key))
+
+
+def methods_for(design: str) -> tuple[Method, ...]:
+    """The rows of :data:`METHODS` that belong to an engagement of ``design``, in order."""
+    return tuple(m for m in METHODS if m.design in (design, "both"))

@@ -17,6 +17,7 @@ from auditmean.cautions import CAUTIONS
 from auditmean.core.bootstrap import seed_to_int
 from auditmean.core.estimators import METHOD_NAMES
 from auditmean.core.flags import FLAG_CODES
+from auditmean.evaluation.conclusion import BASIS_NORMAL
 from auditmean.workpaper._content import COVERAGE_FILE, Workpaper
 from auditmean.workpaper._document import (
     Column,
@@ -28,7 +29,7 @@ from auditmean.workpaper._document import (
     Table,
     is_number,
 )
-from auditmean.workpaper._methods import METHODS, used_here
+from auditmean.workpaper._methods import methods_for, used_here
 
 __all__ = ["SHEET_NAMES", "build_sheets", "flag_counts", "method_name"]
 
@@ -95,10 +96,15 @@ def _summary(wp: Workpaper) -> Sheet:
         total = sum(c for _, _, c in counts)
         name = method_name(ev["primary"])
         if counts:
+            basis = ev["conclusions"][ev["primary"]].get("basis")
+            rests = (
+                f" Because of them the verdict rests on the {basis}, not on the normal limit."
+                if basis is not None and basis != BASIS_NORMAL else ""
+            )
             blocks.append(
                 Paragraph(
                     f"{total} warning{'s' if total != 1 else ''} raised for the relied-on method, {name}; "
-                    "each is listed with its rule, source and advice under Warnings."
+                    f"each is listed with its rule, source and advice under Warnings.{rests}"
                 )
             )
             blocks.append(
@@ -124,21 +130,13 @@ def _summary(wp: Workpaper) -> Sheet:
     else:
         c = ev["conclusions"][ev["primary"]]
         blocks.append(Paragraph(c["wording"]))
-        blocks.append(
-            Fields(
-                (
-                    ("relied-on method", method_name(ev["primary"]), "text"),
-                    ("what the sample supports", c["verdict"], "text"),
-                    ("projected misstatement", c["projected_misstatement"], "money"),
-                    ("upper misstatement limit", c["upper_limit"], "money"),
-                    ("lower misstatement limit", c["lower_limit"], "money"),
-                    ("tolerable misstatement", ev["tolerable"], "money"),
-                    ("second-opinion upper limit", c.get("second_opinion_upper"), "money"),
-                    ("second-opinion lower limit", c.get("second_opinion_lower"), "money"),
-                    ("evaluation record", f"evaluations/{wp.evaluation_file}", "code"),
-                )
-            )
-        )
+        blocks.append(Fields(_conclusion_fields(wp, ev, c)))
+        if c.get("basis") not in (None, BASIS_NORMAL):
+            blocks.append(Heading("The finite-sample bound the verdict rests on"))
+            blocks += _bound_blocks(ev)
+    if wp.plan_check is not None:
+        blocks.append(Heading("Does the plan reach its stated risk?"))
+        blocks += _plan_check_blocks(wp.plan_check, short=True)
     blocks += [Heading("Population"), Fields(_population_fields(wp))]
     rir = plan.risk_incorrect_rejection
     params: list[tuple[str, Any, str]] = [
@@ -161,12 +159,20 @@ def _summary(wp: Workpaper) -> Sheet:
         blocks.append(Heading("Coverage check"))
         for name, cov in wp.coverage:
             blocks.append(Paragraph(_coverage_headline(name, cov)))
+    blocks += _this_workpaper(wp)
+    return Sheet("Summary", "summary", "Sampling workpaper", tuple(blocks))
+
+
+def _this_workpaper(wp: Workpaper, design: tuple[tuple[str, Any, str], ...] = ()) -> list[Any]:
+    """The summary's closing fields of either design: the folder, ``design`` (if any), who
+    created the engagement and when, and which version wrote this workpaper."""
     info = wp.engagement
-    blocks += [
+    return [
         Heading("This workpaper"),
         Fields(
             (
                 ("engagement folder", wp.folder, "code"),
+                *design,
                 ("engagement created", info.get("created"), "text"),
                 ("created by", info.get("created_by"), "text"),
                 ("auditmean version that created it", info.get("tool_version"), "text"),
@@ -175,7 +181,142 @@ def _summary(wp: Workpaper) -> Sheet:
             )
         ),
     ]
-    return Sheet("Summary", "summary", "Sampling workpaper", tuple(blocks))
+
+
+def _conclusion_fields(wp: Workpaper, ev: dict[str, Any], c: dict[str, Any]) -> tuple[tuple[str, Any, str], ...]:
+    """What the relied-on verdict says, what it rests on, and the normal limits (for information where so)."""
+    basis = c.get("basis")
+    info = " (for information only)" if basis not in (None, BASIS_NORMAL) else ""
+    bound = ev.get("overstatement_bound") or None
+    relied = c.get("relied_upper_limit")
+    rows: list[tuple[str, Any, str]] = [
+        ("relied-on method", method_name(ev["primary"]), "text"),
+        ("what the sample supports", c["verdict"], "text"),
+    ]
+    if basis is not None:
+        rows += [
+            ("the verdict rests on", basis, "text"),
+            ("upper limit of overstatement relied on",
+             relied if is_number(relied) else "none: no limit that holds could be formed", "money"),
+        ]
+    rows += [
+        ("tolerable misstatement", ev["tolerable"], "money"),
+        ("projected misstatement", c["projected_misstatement"], "money"),
+        (f"upper misstatement limit, normal approximation{info}", c["upper_limit"], "money"),
+        (f"lower misstatement limit, normal approximation{info}", c["lower_limit"], "money"),
+    ]
+    if bound is not None:
+        rows.append(("finite-sample upper bound of overstatement", bound.get("upper"), "money"))
+    elif basis is not None and ev.get("bound_note"):
+        rows.append(("finite-sample upper bound of overstatement", ev["bound_note"], "text"))
+    rows += [
+        ("second-opinion upper limit (for information only)", c.get("second_opinion_upper"), "money"),
+        ("second-opinion lower limit (for information only)", c.get("second_opinion_lower"), "money"),
+        ("evaluation record", f"evaluations/{wp.evaluation_file}", "code"),
+    ]
+    return tuple(rows)
+
+
+#: How the fields of the finite-sample bound's record are shown (label, format); others by their name.
+_BOUND_FIELDS = {
+    "upper": ("upper bound of overstatement", "money"),
+    "method": ("how it is formed", "text"),
+    "confidence": ("confidence", "pct"),
+    "projected": ("projected misstatement (difference estimation, for orientation only)", "money"),
+    "book_total": ("book total", "money"),
+    "sample_size": ("items examined", "int"),
+    "population_count": ("items in the strata", "int"),
+    "bet": ("fraction of capital bet on each draw", "num2"),
+    "zero_error_upper": ("the bound this sample would give had no overstatement been found", "money"),
+    "monetary_unit_zero_error_upper": (
+        "what a monetary-unit sample of as many draws would give with no misstatement found", "money"),
+}
+#: Plain words for the methods of the finite-sample bound.
+_BOUND_METHODS = {
+    "stratified_betting": "a betting test in each stratum (sampling without replacement), combined across the "
+                          "strata by a union-intersection test (stratified_betting)",
+}
+_BOUND_SKIP = ("schema_version", "kind", "by_stratum", "assumptions", "guarantee", "notes", "summary")
+
+
+def _record_fields(rec: dict[str, Any], known: dict[str, tuple[str, str]], skip: tuple[str, ...]) -> tuple:
+    """Label, value and format of a record's scalar fields, known ones first under their labels."""
+    rows: list[tuple[str, Any, str]] = []
+    for key, (label, fmt) in known.items():
+        if rec.get(key) is not None:
+            rows.append((label, rec[key], fmt))
+    for key, value in rec.items():
+        if key in known or key in skip or isinstance(value, (list, dict)) or value is None:
+            continue
+        rows.append((key.replace("_", " "), value, _guess_fmt(key, [value])))
+    return tuple(rows)
+
+
+def _bound_blocks(ev: dict[str, Any]) -> list[Any]:
+    """The finite-sample bound of a stratified evaluation: upper, guarantee, assumptions, per-stratum table."""
+    bound = ev.get("overstatement_bound") or None
+    if bound is None:
+        note = ev.get("bound_note") or "not formed (the evaluation record does not say why)"
+        return [Paragraph(f"The finite-sample bound: {note}.", "note")]
+    fields = tuple(
+        (label, _BOUND_METHODS.get(value, value), fmt) if label == _BOUND_FIELDS["method"][0] else (label, value, fmt)
+        for label, value, fmt in _record_fields(bound, _BOUND_FIELDS, _BOUND_SKIP)
+    )
+    blocks: list[Any] = [Fields(fields)]
+    if bound.get("guarantee"):
+        blocks.append(Paragraph(f"What it guarantees: {bound['guarantee']}"))
+    for a in bound.get("assumptions") or ():
+        blocks.append(Paragraph(f"Assumption: {a}"))
+    rows = [r for r in bound.get("by_stratum") or () if isinstance(r, dict)]
+    if rows:
+        blocks.append(_generic_table(rows, "The finite-sample bound by stratum"))
+    blocks += [Paragraph(str(n), "note") for n in bound.get("notes") or ()]
+    return blocks
+
+
+def _plan_check_blocks(pc: dict[str, Any], *, short: bool = False) -> list[Any]:
+    """The plan's coverage check (``PlanCheck.to_dict()``): its sentence, the risks, the monetary-unit design."""
+    misses = bool(pc.get("misses"))
+    blocks: list[Any] = [Paragraph(str(pc.get("line", "")), "note" if misses else "text")]
+    default = " (the stated low-error default)" if pc.get("model_is_default") else ""
+    rows: list[tuple[str, Any, str]] = [
+        ("estimation method planned", method_name(str(pc.get("method"))), "text"),
+        ("risk of incorrect acceptance, planned", pc.get("planned_risk"), "pct"),
+        ("risk of incorrect acceptance, simulated (normal limit)", pc.get("simulated_risk"), "pct"),
+        ("  its Monte Carlo standard error", pc.get("simulated_risk_mc_se"), "pct"),
+    ]
+    if pc.get("bound_risk") is not None:
+        rows += [
+            ("risk of incorrect acceptance, simulated (finite-sample bound)", pc.get("bound_risk"), "pct"),
+            ("  its Monte Carlo standard error", pc.get("bound_risk_mc_se"), "pct"),
+        ]
+    rows += [
+        ("the plan misses its stated risk (by more than two standard errors)", misses, "text"),
+        ("items the stratified plan examines", pc.get("total_size"), "int"),
+    ]
+    if pc.get("monetary_unit_size") is not None:
+        rows += [
+            ("monetary-unit design for the same risk: monetary units to draw", pc.get("monetary_unit_size"), "int"),
+            ("  its sampling interval", pc.get("monetary_unit_interval"), "money"),
+            ("  its upper limit of overstatement if no misstatement is found",
+             pc.get("monetary_unit_zero_error_bound"), "money"),
+            ("  positive book total it draws from", pc.get("positive_book_total"), "money"),
+        ]
+    else:
+        rows.append(("monetary-unit design for the same risk", "could not be formed for these parameters", "text"))
+    if not short:
+        rows += [
+            ("misstatement pattern simulated", f"{pc.get('model', '')}{default}", "text"),
+            ("samples simulated", pc.get("replications"), "int"),
+            ("seed of the simulation", str(pc.get("seed")), "code"),
+        ]
+    blocks.append(Fields(tuple(r for r in rows if r[1] is not None)))
+    if short:
+        blocks.append(Paragraph(
+            f"Simulated {int(pc.get('replications') or 0):,} times under: {pc.get('model', '')}{default}. "
+            "The details are under Strata and sizes."
+        ))
+    return blocks
 
 
 def _population_fields(wp: Workpaper) -> tuple[tuple[str, Any, str], ...]:
@@ -241,12 +382,14 @@ def _strata(wp: Workpaper) -> Sheet:
     plan = wp.plan
     st = {str(r["stratum"]): r for r in wp.strata.get("table", [])}
     rows = []
-    for r in plan.table.itertuples(index=False):
+    minimums = plan.table["minimum"] if "minimum" in plan.table.columns else [None] * len(plan.table)
+    for r, least in zip(plan.table.itertuples(index=False), minimums):
         s = st.get(str(r.stratum), {})
         rows.append(
             (
                 str(r.stratum), s.get("kind"), int(r.count), float(r.book_total), s.get("mean"), s.get("std_dev"),
-                s.get("skewness"), s.get("min_book"), s.get("max_book"), float(r.std_dev), int(r.size), bool(r.take_all),
+                s.get("skewness"), s.get("min_book"), s.get("max_book"), float(r.std_dev),
+                None if least is None else int(least), int(r.size), bool(r.take_all),
             )
         )
     table = Table(
@@ -254,8 +397,8 @@ def _strata(wp: Workpaper) -> Sheet:
             Column("stratum"), Column("kind"), Column("items", "int"), Column("book total", "money"),
             Column("mean book value", "money"), Column("std dev of book values", "money"),
             Column("skewness (G1)", "num3"), Column("smallest", "money"), Column("largest", "money"),
-            Column("std dev used for sizing", "money"), Column("sample size", "int"),
-            Column("examined in full", "yesno"),
+            Column("std dev used for sizing", "money"), Column("fewest items allowed", "int"),
+            Column("sample size", "int"), Column("examined in full", "yesno"),
         ),
         tuple(rows),
         caption="Strata and sample sizes",
@@ -296,7 +439,10 @@ def _strata(wp: Workpaper) -> Sheet:
                 for f in (
                     ("estimation method planned", method_name(plan.method), "text"),
                     ("allocation", plan.allocation, "text"),
-                    ("minimum per stratum", plan.minimum, "int"),
+                    ("minimum per stratum", plan.minimum, "int") if plan.minimum != "checks" else (
+                        "minimum per stratum", "the size its normal-approximation checks ask for, "
+                        "max(30, floor(28 + 25 G1^2) + 1) with G1 the skewness of its book values (column "
+                        "'fewest items allowed' above; a stratum that cannot reach it is examined in full)", "text"),
                     ("tolerable misstatement (TM)", plan.tolerable, "money"),
                     ("expected misstatement (EM)", plan.expected, "money"),
                     ("risk of incorrect acceptance (RIA)", plan.risk_incorrect_acceptance, "pct"),
@@ -326,6 +472,15 @@ def _strata(wp: Workpaper) -> Sheet:
             )
         )
     blocks += [Paragraph(n, "note") for n in plan.notes]
+    blocks.append(Heading("Does the plan reach its stated risk?"))
+    if wp.plan_check is None:
+        blocks.append(Paragraph(
+            "The plan was not checked by simulation when it was made (no 'plan_check' in plan.json). The coverage "
+            "check (auditmean simulate --engagement DIR) measures how often the plan's limits hold on these "
+            "book values."
+        ))
+    else:
+        blocks += _plan_check_blocks(wp.plan_check)
     blocks.append(Figure("value_share", "Share of items and of book value by stratum"))
     blocks.append(Figure("allocation", "Items in each stratum and the sample planned"))
     return Sheet("Strata and sizes", "strata", "Strata and sample sizes", tuple(blocks), landscape=True)
@@ -466,7 +621,7 @@ def _evaluation(wp: Workpaper) -> Sheet:
                 method_name(m), m == ev["primary"], e["total"], e["std_error"], e["lower"], e["upper"],
                 c["projected_misstatement"], c["lower_limit"], c["upper_limit"], c["achieved_allowance"],
                 c["adjusted_allowance"], c.get("second_opinion_lower"), c.get("second_opinion_upper"),
-                len(e.get("flags") or []), c["verdict"],
+                len(e.get("flags") or []), c.get("basis"), c.get("relied_upper_limit"), c["verdict"],
             )
         )
     table = Table(
@@ -477,10 +632,12 @@ def _evaluation(wp: Workpaper) -> Sheet:
             Column("lower misstatement limit", "money"), Column("upper misstatement limit", "money"),
             Column("achieved allowance", "money"), Column("adjusted allowance", "money"),
             Column("second-opinion lower limit", "money"), Column("second-opinion upper limit", "money"),
-            Column("warnings", "int"), Column("the sample"),
+            Column("warnings", "int"), Column("verdict rests on"), Column("upper limit relied on", "money"),
+            Column("the sample"),
         ),
         tuple(rows),
-        caption="Every estimator side by side (misstatement = book total - estimated audited total)",
+        caption="Every estimator side by side (misstatement = book total - estimated audited total; where a "
+                "verdict rests on the finite-sample bound, the normal limits are for information only)",
         main=True,
     )
     first = ev["estimates"][ev["primary"]]
@@ -518,6 +675,15 @@ def _evaluation(wp: Workpaper) -> Sheet:
         blocks.append(Paragraph(f"{method_name(m)}: {c['wording']}"))
     for m, why in (ev.get("not_applicable") or {}).items():
         blocks.append(Paragraph(f"{method_name(m)}: not applicable: {why}", "note"))
+    if "overstatement_bound" in ev or "bound_note" in ev:
+        blocks.append(Heading("The finite-sample bound for stratified samples"))
+        blocks.append(Paragraph(
+            "An upper bound of overstatement that holds whatever the sample size, under the assumptions it "
+            "states. Where warnings about the normal approximation are raised for a method, its verdict rests on "
+            "this bound and its normal limits are for information only. A simple random sample of items can miss "
+            "the few large misstated items, so this bound is often wide."
+        ))
+        blocks += _bound_blocks(ev)
     for m, e in ev["estimates"].items():
         bs = e.get("by_stratum") or []
         present = [c for c in _STRATUM_COLUMNS if any(c[0] in r for r in bs)]
@@ -588,7 +754,8 @@ def _warnings(wp: Workpaper) -> Sheet:
     blocks: list[Any] = [
         table,
         Paragraph("A warning never changes a number; it says where the normal approximation behind the limits "
-                  "cannot be trusted."),
+                  "cannot be trusted. Where one is raised for a method, that method's verdict rests on the "
+                  "finite-sample bound instead (see Evaluation)."),
         Heading("The codes"),
         Table((Column("code", "code"), Column("meaning", wide=True)), tuple(FLAG_CODES.items())),
     ]
@@ -629,11 +796,14 @@ def _guess_fmt(col: str, values: list[Any]) -> str:
     if not any(is_number(v) for v in values):
         return "text"
     c = col.lower()
-    if c in ("replications", "replications_flagged", "count", "size", "large_items") or c.endswith("_used") or c.endswith("_replications"):
+    whole = ("replications", "replications_flagged", "count", "size", "large_items", "sampled", "sample_size",
+             "population_count", "items", "items_in_full", "draws", "errors", "understatement_errors", "hits")
+    if c in whole or c.endswith("_used") or c.endswith("_replications"):
         return "int"
-    if any(k in c for k in ("coverage", "rate", "risk", "share", "acceptance", "rejection")):
+    if any(k in c for k in ("coverage", "rate", "risk", "share", "acceptance", "rejection", "taint")):
         return "pct"
-    if any(k in c for k in ("bias", "std_error", "error_sd", "total", "book", "misstatement", "estimate")):
+    if any(k in c for k in ("bias", "std_error", "error_sd", "total", "book", "misstatement", "estimate",
+                            "overstatement", "understatement", "audited", "upper", "lower", "projected")):
         return "money"
     return "num4"
 
@@ -700,6 +870,10 @@ def _coverage(wp: Workpaper) -> Sheet:
             )
         )
         blocks.append(_generic_table(list(cov.get("by_estimator") or []), "Coverage and risks by estimator (shares; mc se = Monte Carlo standard error)"))
+        if cov.get("by_bound"):
+            blocks.append(_generic_table(
+                list(cov["by_bound"]), "Coverage and risks of the bounds that hold in finite samples (shares)"
+            ))
         blocks.append(_generic_table(list(cov.get("strata") or []), "The design simulated"))
         rates = [r for r in cov.get("flag_rates") or [] if (r.get("replications_flagged") or 0) > 0]
         if rates:
@@ -722,6 +896,7 @@ def _facts(wp: Workpaper) -> dict[str, Any]:
             r.get("status") == "variance not estimable" for e in ev["estimates"].values() for r in e.get("by_stratum") or []
         )
     taints = tuple(str((c.get("model") or {}).get("taint", {}).get("kind")) for _, c in wp.coverage)
+    pc = wp.plan_check
     return {
         "stratify": wp.strata.get("method"),
         "allocation": wp.plan.allocation,
@@ -732,26 +907,37 @@ def _facts(wp: Workpaper) -> dict[str, Any]:
         "second_opinion": bool(ev and ev.get("second_opinions")),
         "coverage": bool(wp.coverage),
         "taints": taints,
+        "minimum": str(wp.plan.minimum),
+        "plan_check": pc is not None,
+        "monetary_size": bool(pc is not None and pc.get("monetary_unit_size") is not None),
+        "finite_bound": bool(ev and ev.get("overstatement_bound")),
     }
 
 
 def _methods(wp: Workpaper) -> Sheet:
-    facts = _facts(wp)
+    return _methods_sheet(
+        wp.design,
+        _facts(wp),
+        "Every formula auditmean uses, and its source",
+        "Notation: N_h items and book total X_h in stratum h, n_h examined, f_h = n_h / N_h; y audited and x book "
+        "values; TM, EM tolerable and expected misstatement; RIA, RIR the risks of incorrect acceptance and rejection. "
+        "Sources marked 'from memory' were not checked against the publication.",
+    )
+
+
+def _methods_sheet(design: str, facts: dict[str, Any], caption: str, notation: str) -> Sheet:
+    """The Methods sheet of either design: every formula of ``design`` with its source and
+    whether this workpaper used it (from ``facts``), under a paragraph of ``notation``."""
     table = Table(
         (
             Column("step"), Column("what"), Column("formula", wide=True), Column("published source", wide=True),
             Column("where in auditmean", "code"), Column("used here", "yesno"),
         ),
-        tuple((m.step, m.name, m.formula, m.source, m.where, used_here(m, facts)) for m in METHODS),
-        caption="Every formula auditmean uses, and its source",
+        tuple((m.step, m.name, m.formula, m.source, m.where, used_here(m, facts)) for m in methods_for(design)),
+        caption=caption,
         main=True,
     )
-    note = Paragraph(
-        "Notation: N_h items and book total X_h in stratum h, n_h examined, f_h = n_h / N_h; y audited and x book "
-        "values; TM, EM tolerable and expected misstatement; RIA, RIR the risks of incorrect acceptance and rejection. "
-        "Sources marked 'from memory' were not checked against the publication."
-    )
-    return Sheet("Methods", "methods", "Methods and their sources", (note, table), landscape=True)
+    return Sheet("Methods", "methods", "Methods and their sources", (Paragraph(notation), table), landscape=True)
 
 
 # --------------------------------------------------------------------------- re-performance
@@ -786,46 +972,25 @@ def evaluate_command(wp: Workpaper) -> str:
 
 
 def _reperformance(wp: Workpaper) -> Sheet:
-    pop = wp.population
-    fp = wp.engagement.get("population", {})
     seed = wp.seed
     blocks: list[Any] = [
-        Fields(
-            tuple(
-                f
-                for f in (
-                    ("auditmean version writing this workpaper", wp.tool_version, "text"),
-                    ("auditmean version that created the engagement", wp.engagement.get("tool_version"), "text"),
-                    ("selection seed, exactly", seed if seed is not None else "no selection yet", "code"),
-                    ("the seed as a quoted string (shows spaces)", json.dumps(seed, ensure_ascii=False) if seed is not None else None, "code"),
-                    ("characters in the seed", len(seed) if seed is not None else None, "int"),
-                    ("population file", pop.source, "code"),
-                    ("file SHA-256 (recorded)", fp.get("file_sha256"), "code"),
-                    ("file SHA-256 (read now)", pop.file_sha256, "code"),
-                    ("content SHA-256 (recorded)", fp.get("content_sha256"), "code"),
-                    ("content SHA-256 (read now)", pop.content_sha256, "code"),
-                    ("items", pop.count, "int"),
-                    ("second-opinion bootstrap seed", str(_ev(wp).get("bootstrap_seed")) if _ev(wp) else None, "code"),
-                )
-                if f[1] is not None
-            )
+        _reperformance_fields(
+            wp,
+            after=(
+                ("second-opinion bootstrap seed", str(_ev(wp).get("bootstrap_seed")) if _ev(wp) else None, "code"),
+            ),
         ),
         Heading("Commands that reproduce the work"),
     ]
-    cmds: list[tuple[str, str]] = [
-        ("re-perform the selection (exit status 0 when it matches)", f"auditmean verify --engagement {_q(wp.folder)}"),
-        ("evaluate again (saves a new evaluation beside this one; the numbers must be the same)", evaluate_command(wp)),
-        ("check the population file's fingerprint", f"sha256sum {_q(pop.source)}"),
-    ]
+    more: list[tuple[str, str]] = []
     if wp.items is not None and len(wp.items) and seed is not None:
         first = wp.items.iloc[0]
         text = f"{seed}:{first['item_id']}"
-        cmds.append(
+        more.append(
             (f"key of item {first['item_id']} (the first 16 characters must be {first['key']})",
              f"printf '%s' {_q(text)} | sha256sum")
         )
-    cmds.append(("write this workpaper again", f"auditmean report --engagement {_q(wp.folder)}"))
-    blocks.append(Table((Column("what", wide=True), Column("command", "code", wide=True)), tuple(cmds)))
+    blocks.append(_commands_table(wp, evaluate_command(wp), more))
     blocks += [
         Heading("Re-performing the selection by hand, with any SHA-256 tool"),
         Paragraph(
@@ -838,16 +1003,78 @@ def _reperformance(wp: Workpaper) -> Sheet:
             "first n items. A stratum examined in full takes all its items. Which stratum an item is in follows "
             "from its book value and the boundaries under Strata and sizes."
         ),
+        *_fingerprint_blocks("; with a preassigned stratum column, a TAB and the stratum follow the amount on each line"),
+    ]
+    return _reperformance_sheet(wp, blocks)
+
+
+def _reperformance_fields(
+    wp: Workpaper,
+    after_seed: tuple[tuple[str, Any, str], ...] = (),
+    after: tuple[tuple[str, Any, str], ...] = (),
+) -> Fields:
+    """The opening fields of the re-performance sheet of either design.
+
+    The versions, the selection seed and the population file's fingerprints; ``after_seed``
+    follows the seed's fields and ``after`` ends the list. A field with no value is left out.
+    """
+    pop = wp.population
+    fp = wp.engagement.get("population", {})
+    seed = wp.seed
+    return Fields(
+        tuple(
+            f
+            for f in (
+                ("auditmean version writing this workpaper", wp.tool_version, "text"),
+                ("auditmean version that created the engagement", wp.engagement.get("tool_version"), "text"),
+                ("selection seed, exactly", seed if seed is not None else "no selection yet", "code"),
+                ("the seed as a quoted string (shows spaces)", json.dumps(seed, ensure_ascii=False) if seed is not None else None, "code"),
+                ("characters in the seed", len(seed) if seed is not None else None, "int"),
+                *after_seed,
+                ("population file", pop.source, "code"),
+                ("file SHA-256 (recorded)", fp.get("file_sha256"), "code"),
+                ("file SHA-256 (read now)", pop.file_sha256, "code"),
+                ("content SHA-256 (recorded)", fp.get("content_sha256"), "code"),
+                ("content SHA-256 (read now)", pop.content_sha256, "code"),
+                ("items", pop.count, "int"),
+                *after,
+            )
+            if f[1] is not None
+        )
+    )
+
+
+def _commands_table(wp: Workpaper, evaluate: str, more: list[tuple[str, str]]) -> Table:
+    """The commands that reproduce the work, for either design: ``evaluate`` evaluates again and
+    ``more`` (what to do, command) are the design's own checks of the selection."""
+    cmds = [
+        ("re-perform the selection (exit status 0 when it matches)", f"auditmean verify --engagement {_q(wp.folder)}"),
+        ("evaluate again (saves a new evaluation beside this one; the numbers must be the same)", evaluate),
+        ("check the population file's fingerprint", f"sha256sum {_q(wp.population.source)}"),
+        *more,
+        ("write this workpaper again", f"auditmean report --engagement {_q(wp.folder)}"),
+    ]
+    return Table((Column("what", wide=True), Column("command", "code", wide=True)), tuple(cmds))
+
+
+def _fingerprint_blocks(more: str = "") -> list[Any]:
+    """How to recompute the content fingerprint in Python; ``more`` is added inside the closing brackets."""
+    return [
         Heading("Recomputing the content fingerprint"),
         Paragraph(
             "rows = sorted(zip(ids, values)); text = ''.join(f'{i}\\t{format(v, \".2f\")}\\n' for i, v in rows); "
             "text = text.replace('\\t-0.00\\n', '\\t0.00\\n'); hashlib.sha256(text.encode('utf-8')).hexdigest()  "
-            "(Python; with a preassigned stratum column, a TAB and the stratum follow the amount on each line)",
+            f"(Python{more})",
             "code",
         ),
     ]
+
+
+def _reperformance_sheet(wp: Workpaper, blocks: list[Any]) -> Sheet:
+    """The Re-performance sheet of either design: ``blocks``, then what re-performing the selection
+    found when the workpaper was written."""
     v = wp.verification
-    blocks.append(Heading("Re-performed when this workpaper was written"))
+    blocks = [*blocks, Heading("Re-performed when this workpaper was written")]
     if v is None:
         blocks.append(Paragraph("The selection was not re-performed (no selection, or not asked for)."))
     else:
@@ -899,7 +1126,16 @@ def _log(wp: Workpaper) -> Sheet:
 
 
 def build_sheets(wp: Workpaper) -> tuple[Sheet, ...]:
-    """Every sheet of the workpaper, in the order of :data:`SHEET_NAMES`."""
+    """Every sheet of the workpaper, in the order of :data:`SHEET_NAMES`.
+
+    For an engagement of the monetary-unit design, the sheets of
+    :func:`auditmean.workpaper._monetary_sheets.build_monetary_sheets`
+    (:data:`~auditmean.workpaper._monetary_sheets.MONETARY_SHEET_NAMES`).
+    """
+    if wp.monetary:
+        from auditmean.workpaper._monetary_sheets import build_monetary_sheets
+
+        return build_monetary_sheets(wp)
     return (
         _summary(wp), _population(wp), _strata(wp), _selection(wp), _results(wp), _entries(wp), _evaluation(wp),
         _warnings(wp), _coverage(wp), _methods(wp), _reperformance(wp), _log(wp),

@@ -12,7 +12,11 @@ keeps state, so the widgets can draw the same pictures:
   limits, against the book value and the tolerable misstatement
   (:func:`evaluation_estimates` takes them from an evaluation record);
 * :func:`coverage_by_estimator`, :func:`coverage_risks`: a coverage check's
-  rates (from ``CoverageResult.to_dict()["by_estimator"]``).
+  rates (from ``CoverageResult.to_dict()["by_estimator"]``);
+* :func:`monetary_bounds`: every upper bound of overstatement of a
+  monetary-unit evaluation against the tolerable misstatement, the
+  relied-on one marked (:func:`monetary_bound_rows` takes them from the
+  evaluation record).
 
 Nothing is recomputed but the bins and shares a picture needs. Text from
 the user's files (stratum labels) is HTML-escaped before it reaches a
@@ -40,6 +44,8 @@ __all__ = [
     "evaluation_estimates",
     "coverage_by_estimator",
     "coverage_risks",
+    "monetary_bound_rows",
+    "monetary_bounds",
 ]
 
 _MAIN = "#2F5D8A"
@@ -74,6 +80,7 @@ def book_value_distribution(
     boundaries: Sequence[float] = (),
     top_cutoff: float | None = None,
     bins: int = 60,
+    top_label: str = "top stratum from",
 ) -> go.Figure:
     """Histogram of the positive book values on a log scale, with the stratum boundaries.
 
@@ -87,6 +94,9 @@ def book_value_distribution(
         The smallest book value of the top stratum, or None.
     bins:
         Number of bars (equal widths in log10 of the book value).
+    top_label:
+        The words before the amount on the ``top_cutoff`` line (for a
+        monetary-unit sample, the sampling interval).
 
     Notes
     -----
@@ -128,7 +138,7 @@ def book_value_distribution(
     if top_cutoff is not None and _finite(top_cutoff) and float(top_cutoff) > 0:
         fig.add_vline(
             x=math.log10(float(top_cutoff)), line=dict(color=_ACCENT, width=2),
-            annotation_text=f"top stratum from {_money(float(top_cutoff))}", annotation_position="top left",
+            annotation_text=f"{_esc(top_label)} {_money(float(top_cutoff))}", annotation_position="top left",
             annotation_font_size=10,
         )
     apart = []
@@ -246,6 +256,7 @@ def estimate_limits(
     tolerable: float,
     primary: str | None = None,
     confidence: float | None = None,
+    finite_bound: float | None = None,
 ) -> go.Figure:
     """Every estimate of the audited total with its limits, against book value and tolerable misstatement.
 
@@ -264,6 +275,10 @@ def estimate_limits(
         The relied-on method, marked.
     confidence:
         The confidence of the two-sided limits, for the legend.
+    finite_bound:
+        The finite-sample upper bound of overstatement, if formed: drawn as
+        the audited total it guarantees at least, ``book_total -
+        finite_bound``.
     """
     if not _finite(book_total) or not _finite(tolerable):
         raise ParameterError("book_total", "the book total and the tolerable misstatement must be amounts")
@@ -277,6 +292,12 @@ def estimate_limits(
     fig.add_vline(x=book, line=dict(color=_GREY, width=2), annotation_text="book value", annotation_position="top")
     for x in (book - tm, book + tm):
         fig.add_vline(x=x, line=dict(color=_OK, width=1.5, dash="dash"))
+    if _finite(finite_bound):
+        fig.add_vline(
+            x=book - float(finite_bound), line=dict(color=_ACCENT, width=2, dash="dot"),
+            annotation_text=f"finite-sample bound: audited total at least {_money(book - float(finite_bound))}",
+            annotation_position="bottom left", annotation_font_size=10,
+        )
     label = "estimate and limits" + (f" ({confidence:.0%} two-sided)" if confidence is not None else "")
     hover = []
     for r, n in zip(estimates, names):
@@ -381,5 +402,70 @@ def coverage_risks(by_estimator: Sequence[Mapping[str, Any]], nominal_acceptance
         title="Risks measured in the simulated samples",
         barmode="group", yaxis=dict(title="share of samples", tickformat=".0%", rangemode="tozero"),
         legend=dict(orientation="h", yanchor="top", y=-0.18), **_LAYOUT,
+    )
+    return fig
+
+
+def monetary_bound_rows(evaluation: Mapping[str, Any]) -> list[dict[str, Any]]:
+    """The rows :func:`monetary_bounds` takes, from ``MonetaryUnitEvaluation.to_dict()``."""
+    rows = []
+    for m, b in (evaluation.get("bounds") or {}).items():
+        rows.append(
+            {
+                "method": m,
+                "name": str(b.get("name") or m),
+                "upper": b.get("upper"),
+                "projected": b.get("projected"),
+                "relied_on": m == evaluation.get("relied_on"),
+            }
+        )
+    return rows
+
+
+def monetary_bounds(rows: Sequence[Mapping[str, Any]], tolerable: float, names: Mapping[str, str] | None = None) -> go.Figure:
+    """Every upper bound of overstatement of a monetary-unit sample, against the tolerable misstatement.
+
+    Parameters
+    ----------
+    rows:
+        One mapping per bound with ``method``, ``upper``, optionally
+        ``projected`` and ``relied_on`` (see :func:`monetary_bound_rows`).
+    tolerable:
+        The tolerable misstatement (the dashed line).
+    names:
+        Plain names of the methods (default: the method names).
+    """
+    if not _finite(tolerable):
+        raise ParameterError("tolerable", "the tolerable misstatement must be an amount")
+    names = names or {}
+    labels = [
+        _esc(names.get(r["method"], str(r["method"]))) + ("  (relied on)" if r.get("relied_on") else "") for r in rows
+    ]
+    upper = [float(r["upper"]) if _finite(r.get("upper")) else None for r in rows]
+    colours = [_ACCENT if r.get("relied_on") else _MAIN for r in rows]
+    fig = go.Figure()
+    fig.add_trace(
+        go.Bar(
+            x=upper, y=labels, orientation="h", marker_color=colours, name="upper bound of overstatement",
+            hovertext=[f"{n}: upper bound {_money(u)}" if u is not None else f"{n}: no bound" for n, u in zip(labels, upper)],
+            hoverinfo="text",
+        )
+    )
+    projected = [(lab, float(r["projected"])) for lab, r in zip(labels, rows) if _finite(r.get("projected"))]
+    if projected:
+        fig.add_trace(
+            go.Scatter(
+                x=[v for _, v in projected], y=[lab for lab, _ in projected], mode="markers",
+                marker=dict(color=_GREY, size=10, symbol="diamond"), name="projected misstatement",
+                hovertext=[f"{lab}: projected misstatement {_money(v)}" for lab, v in projected], hoverinfo="text",
+            )
+        )
+    fig.add_vline(x=float(tolerable), line=dict(color=_OK, width=2, dash="dash"),
+                  annotation_text=f"tolerable {_money(float(tolerable))}", annotation_position="top")
+    fig.update_layout(
+        title="Upper bounds of overstatement, each at the planned confidence",
+        xaxis=dict(title="overstatement", tickformat=",.0f", rangemode="tozero"),
+        yaxis=dict(autorange="reversed", type="category"),
+        legend=dict(orientation="h", yanchor="top", y=-0.2), **{**_LAYOUT, "margin": dict(l=220, r=30, t=70, b=90)},
     )
     return fig

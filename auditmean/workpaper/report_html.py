@@ -157,6 +157,8 @@ def _figure_html(fig: go.Figure, div_id: str, caption: str, scripts: _Scripts) -
 def figures_for(wp: Workpaper) -> dict[str, go.Figure]:
     """Every picture of the report, by the key its :class:`Figure` block names."""
     out: dict[str, go.Figure] = {}
+    if wp.monetary:
+        return _monetary_figures(wp)
     strata = wp.strata
     out["distribution"] = figs.book_value_distribution(
         wp.population.book_values, strata.get("boundaries") or (), strata.get("top_cutoff")
@@ -170,7 +172,7 @@ def figures_for(wp: Workpaper) -> dict[str, go.Figure]:
         first = ev["estimates"][ev["primary"]]
         out["estimate"] = figs.estimate_limits(
             figs.evaluation_estimates(ev), first["book_total"], ev["tolerable"], primary=ev["primary"],
-            confidence=first["confidence"],
+            confidence=first["confidence"], finite_bound=(ev.get("overstatement_bound") or {}).get("upper"),
         )
     for i, (_, cov) in enumerate(wp.coverage):
         rows = list(cov.get("by_estimator") or [])
@@ -179,6 +181,22 @@ def figures_for(wp: Workpaper) -> dict[str, go.Figure]:
             out[f"coverage:{i}"] = figs.coverage_by_estimator(rows, float(conf))
             if any(k in rows[0] for k in ("risk_incorrect_acceptance", "risk_incorrect_rejection")):
                 out[f"coverage_risks:{i}"] = figs.coverage_risks(rows, 1.0 - float(conf))
+    return out
+
+
+def _monetary_figures(wp: Workpaper) -> dict[str, go.Figure]:
+    from auditmean.workpaper._monetary_sheets import bound_name
+
+    mp = wp.monetary_plan
+    out = {
+        "distribution": figs.book_value_distribution(
+            wp.population.book_values, (), mp.interval, top_label="examined in full from the sampling interval"
+        )
+    }
+    ev = wp.evaluation
+    if ev is not None and ev.get("bounds"):
+        rows = figs.monetary_bound_rows(ev)
+        out["bounds"] = figs.monetary_bounds(rows, ev["tolerable"], names={r["method"]: bound_name(r["method"]) for r in rows})
     return out
 
 

@@ -94,6 +94,10 @@ def main() -> None:
             panel.use_rejection.value, panel.risk_rejection.value = True, value
         elif name == "risk_incorrect_acceptance":
             panel.risk_acceptance.value = value
+        elif name == "minimum":
+            panel.minimum_from_checks.value = value == "checks"
+            if value != "checks":
+                panel.minimum.value = value
         else:
             getattr(panel, name).value = value
     assert panel.message.value == "", panel.message.value
