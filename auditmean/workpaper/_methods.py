@@ -315,9 +315,11 @@ METHODS: tuple[Method, ...] = (
     Method(
         "conclusion", "finite-sample bound for stratified samples",
         "in stratum h, x = max(book - audited, 0) / u_h with u_h its largest book value (no item overstated "
-        "by more than its book value), in the order drawn; capital K(m) = prod_t (1 + c (mu_t(m) - x_t)), "
-        "mu_t(m) = (N_h m - sum_(i<t) x_i) / (N_h - t + 1) the mean of the items not yet drawn, c a constant "
-        "bet; a total overstatement T is rejected when the smallest product of the strata's capitals over "
+        "by more than its book value), sorted from largest to smallest (the order least favourable to the "
+        "conclusion, so the bound holds whatever the order drawn); capital K(m) = prod_t (1 + c (mu_t(m) - "
+        "x_t)), mu_t(m) = (N_h m - sum_(i<t) x_i) / (N_h - t + 1) the mean of the items not yet drawn, c a "
+        "constant bet, bounded below by prod_t (1 - c x_t + c N_h e / (N_h - t + 1)) with e the overstatement "
+        "beyond what was found per unit of N_h u_h (which keeps the bound monotone); a total overstatement T is rejected when the smallest product of the strata's capitals over "
         "every split of T among them reaches 1 / alpha (Ville's inequality); the bound is the largest total "
         "not rejected, strata examined in full added at their exact misstatement",
         "Waudby-Smith, I. and Ramdas, A. (2024), Estimating means of bounded random variables by betting, "
@@ -381,8 +383,8 @@ METHODS: tuple[Method, ...] = (
         "monetary units", "betting bound",
         "for a candidate mean m, the capital K_t(m) = prod_(i<=t) (1 + lambda_i (m - x_i)) with predictable "
         "plug-in bets lambda_i, truncated at cap / (1 - m); U = the smallest m whose capital reaches "
-        "1 / alpha at some draw (Ville's inequality), found by bisection; x the overstatement taints in draw "
-        "order",
+        "1 / alpha at some draw (Ville's inequality), found by a bracketing search (false position); x the "
+        "overstatement taints in draw order; the sample size fixed before any result is seen",
         "Waudby-Smith, I. and Ramdas, A. (2024), Estimating means of bounded random variables by betting, "
         "JRSS B 86(1), 1-27 (pages from memory); Ville, J. (1939), Etude critique de la notion de collectif, "
         "Gauthier-Villars",
