@@ -1198,6 +1198,10 @@ def _overstatement_taint_sup(model: MisstatementModel) -> tuple[float, float]:
     return ordinary, large
 
 
+#: How the note begins that says why the default left the finite-sample bound out.
+BOUND_LEFT_OUT = "The finite-sample bound (stratified betting) was not simulated"
+
+
 def _choose_bounds(value, design, rates, model, labels) -> tuple[tuple[str, ...], str | None]:
     """The bounds to simulate, and the note saying why the default left one out.
 
@@ -1236,7 +1240,7 @@ def _choose_bounds(value, design, rates, model, labels) -> tuple[tuple[str, ...]
     if requested is None:
         if reason is not None:
             return (), (
-                f"The finite-sample bound (stratified betting) was not simulated: {reason}. To simulate it, "
+                f"{BOUND_LEFT_OUT}: {reason}. To simulate it, "
                 f"{remedy}."
             )
         return core_bound.BOUNDS, None

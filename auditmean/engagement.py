@@ -616,19 +616,20 @@ class Engagement:
             ],
             "history": history,
         }
-        write_text_atomic(path, json_text(record))
+        self._write_selection(
+            record, extended=previous is not None, seed=seed, sizes=sizes_list, n_items=len(sel),
+            verified_against_frame=verified,
+        )
+        return path
+
+    def _write_selection(self, record: dict[str, Any], *, extended: bool, **details: Any) -> None:
+        """Write a selection record, then its people's copy and the results copy that follows it, and log it."""
+        write_text_atomic(self._path("selection"), json_text(record))
         df = _selection_frame(record)
         write_bytes_atomic(self._path("selection_copy"), self._selection_copy_bytes(df))
         if self._path("results_log").exists():
             write_bytes_atomic(self._path("results_copy"), self._results_copy_bytes(self._results_from(df)))
-        self._log(
-            "selection extended" if previous is not None else "selection saved",
-            seed=seed,
-            sizes=sizes_list,
-            n_items=len(sel),
-            verified_against_frame=verified,
-        )
-        return path
+        self._log("selection extended" if extended else "selection saved", **details)
 
     @staticmethod
     def _selection_copy_bytes(df: pd.DataFrame) -> bytes:
@@ -768,18 +769,9 @@ class Engagement:
             "items": rows,
             "history": history,
         }
-        write_text_atomic(path, json_text(record))
-        df = _selection_frame(record)
-        write_bytes_atomic(self._path("selection_copy"), self._selection_copy_bytes(df))
-        if self._path("results_log").exists():
-            write_bytes_atomic(self._path("results_copy"), self._results_copy_bytes(self._results_from(df)))
-        self._log(
-            "selection extended" if previous is not None else "selection saved",
-            seed=seed,
-            design="monetary_unit",
-            sample_size=n,
-            n_items=len(rows),
-            verified_against_population=verified,
+        self._write_selection(
+            record, extended=previous is not None, seed=seed, design="monetary_unit", sample_size=n,
+            n_items=len(rows), verified_against_population=verified,
         )
         return path
 

@@ -122,6 +122,8 @@ class PlanCheck(RecordMixin):
     monetary_unit_zero_error_bound: float | None
     positive_book_total: float
     line: str
+    #: why the finite-sample bound was not simulated ("" when it was, or was not asked for)
+    bound_note: str = ""
 
     def _rows(self) -> list[tuple[str, str]]:
         rows = [
@@ -163,19 +165,25 @@ def _positive_total(strata: Any, plan: Any) -> float:
     return float(math.fsum(x for x in t if x > 0))
 
 
-def monetary_unit_alternative(positive_total: float, plan: Any) -> tuple[int | None, float | None, float | None]:
-    """Size, interval and zero-error upper limit of the monetary-unit design for the plan's parameters."""
+def monetary_unit_alternative(
+    positive_total: float, tolerable: float, expected: float, risk_incorrect_acceptance: float
+) -> tuple[int | None, float | None, float | None]:
+    """Size, interval and zero-error upper limit of the monetary-unit design for these parameters.
+
+    ``(None, None, None)`` where the design cannot be formed (no positive
+    book value, or parameters the sizing refuses).
+    """
     from auditmean.core.monetary import zero_error_bound
     from auditmean.monetary_bound import monetary_unit_sample_size
 
     if not positive_total > 0:
         return None, None, None
     try:
-        n = monetary_unit_sample_size(positive_total, plan.tolerable, plan.expected,
-                                      risk_incorrect_acceptance=plan.risk_incorrect_acceptance)
+        n = monetary_unit_sample_size(positive_total, tolerable, expected,
+                                      risk_incorrect_acceptance=risk_incorrect_acceptance)
     except ParameterError:
         return None, None, None
-    bound = float(zero_error_bound(positive_total, n, 1.0 - plan.risk_incorrect_acceptance))
+    bound = float(zero_error_bound(positive_total, n, 1.0 - risk_incorrect_acceptance))
     return int(n), positive_total / n, bound
 
 
@@ -234,10 +242,9 @@ def check_plan(
         estimators=(plan.method,), replications=replications, confidence=1.0 - ria,
         tolerable=plan.tolerable, expected=plan.expected, seed=seed, progress=progress,
     )
-    if _offers_bound(simulate_coverage):
-        # None: every finite-sample bound that applies to this design (the coverage check leaves out,
-        # with a note, one that cannot be formed, e.g. where a stratum of credits is sampled)
-        options["bounds"] = None if include_bound else ()
+    # None: every finite-sample bound that applies to this design (the coverage check leaves out,
+    # with a note, one that cannot be formed, e.g. where a stratum of credits is sampled)
+    options["bounds"] = None if include_bound else ()
     result = simulate_coverage(values, labels, plan.sizes, model, **options)
     row = result.by_estimator.iloc[0]
     risk = float(row["risk_incorrect_acceptance"])
@@ -250,22 +257,19 @@ def check_plan(
         bound_se = float(b["risk_incorrect_acceptance_mc_se"])
     misses = bool(math.isfinite(risk) and risk > ria + 2.0 * max(se, 1e-12))
     positive = _positive_total(strata, plan)
-    mu_n, mu_interval, mu_bound = monetary_unit_alternative(positive, plan)
+    mu_n, mu_interval, mu_bound = monetary_unit_alternative(positive, plan.tolerable, plan.expected, ria)
     line = _line(plan, risk, misses, bound_risk, mu_n, mu_bound, result.replications)
+    from auditmean.coverage import BOUND_LEFT_OUT
+
+    bound_note = next((n for n in result.notes if n.startswith(BOUND_LEFT_OUT)), "")
     return PlanCheck(
         method=plan.method, planned_risk=ria, simulated_risk=risk, simulated_risk_mc_se=se,
         bound_risk=bound_risk, bound_risk_mc_se=bound_se, replications=int(result.replications),
         seed=int(result.seed), model=model.summary().removeprefix("Misstatement model: "),
         model_is_default=is_default, misses=misses, total_size=int(plan.total_size),
         monetary_unit_size=mu_n, monetary_unit_interval=mu_interval, monetary_unit_zero_error_bound=mu_bound,
-        positive_book_total=positive, line=line,
+        positive_book_total=positive, line=line, bound_note=bound_note,
     )
-
-
-def _offers_bound(simulate: Any) -> bool:
-    import inspect
-
-    return "bounds" in inspect.signature(simulate).parameters
 
 
 def _line(plan, risk, misses, bound_risk, mu_n, mu_bound, reps) -> str:

@@ -4,7 +4,7 @@ Checked against things outside the project:
 
 * the capital process of one stratum against confseq's ``betting_mart``
   (PyPI confseq 0.0.11, by authors of the method: values recorded here, and
-  live where confseq imports) and against a plain-Python transcription of
+  live where confseq imports) and against a plain-Python re-implementation of
   the formula of Waudby-Smith and Ramdas (2020, NeurIPS, section 3);
 * hand-worked cases with the arithmetic in the test (quadratic equations
   solved with the quadratic formula);
@@ -109,7 +109,7 @@ def test_capital_matches_confseq_live():
 
 
 def _plain_capital(x, bets, N, m):
-    """Waudby-Smith and Ramdas (2020, section 3), transcribed: K_t = prod (1 + l_i (mu_i - x_i))."""
+    """Waudby-Smith and Ramdas (2020, section 3), written out independently: K_t = prod (1 + l_i (mu_i - x_i))."""
     path, capital, before = [], 1.0, 0.0
     for t, (xt, lt) in enumerate(zip(x, bets), start=1):
         mu = (N * m - before) / (N - t + 1)  # the mean of the items not yet drawn
@@ -119,7 +119,7 @@ def _plain_capital(x, bets, N, m):
     return path
 
 
-def test_capital_matches_a_plain_python_transcription():
+def test_capital_matches_a_plain_python_reimplementation():
     rng = np.random.default_rng(11)
     for _ in range(30):
         N = int(rng.integers(3, 300))

@@ -293,16 +293,11 @@ def _monetary_unit_words(strata, tm: float, em: float, ria: float) -> str:
         return ""
     totals = pd.to_numeric(strata["book_total"], errors="coerce").to_numpy(dtype=float)
     positive = math.fsum(t for t in totals if math.isfinite(t) and t > 0)
-    if not positive > 0:
-        return ""
-    from auditmean.core.monetary import zero_error_bound
-    from auditmean.monetary_bound import monetary_unit_sample_size
+    from auditmean.plan_check import monetary_unit_alternative
 
-    try:
-        n = monetary_unit_sample_size(positive, tm, em, risk_incorrect_acceptance=ria)
-    except ParameterError:
+    n, _interval, z = monetary_unit_alternative(positive, tm, em, ria)
+    if n is None:
         return ""
-    z = float(zero_error_bound(positive, n, 1.0 - ria))
     return (
         f" A monetary-unit sample of about {n:,} draws from the positive book values would give an upper "
         f"limit of {format_number(z)} if it found no misstatement."
@@ -473,14 +468,13 @@ def evaluate(
         adjusted = tm - z_a * e.std_error if achieved > planned else math.nan
         unusable = any(f.code == "interval-unusable" for f in e.flags)
         normality = [f for f in e.flags if f.code not in _NOT_NORMALITY]
-        normal_verdict, _ = _verdict_words(m, pm, uml, lml, tm, ria, unusable)
+        normal_verdict, normal_words = _verdict_words(m, pm, uml, lml, tm, ria, unusable)
         if normality:
             verdict, words, basis, relied = _bound_verdict(
                 m, len(normality), bound, bound_note, uml, lml, tm, em, ria, strata
             )
         else:
-            verdict, words = _verdict_words(m, pm, uml, lml, tm, ria, unusable)
-            basis, relied = BASIS_NORMAL, uml
+            verdict, words, basis, relied = normal_verdict, normal_words, BASIS_NORMAL, uml
         so_upper = so.bootstrap_misstatement_upper if so is not None else math.nan
         so_lower = so.bootstrap_misstatement_lower if so is not None else math.nan
         so_verdict = None

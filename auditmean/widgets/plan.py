@@ -22,7 +22,7 @@ import ipywidgets as widgets
 
 from auditmean._records import format_number, html_table
 from auditmean.core.estimators import METHOD_NAMES
-from auditmean.errors import InputError, ParameterError, RecordError
+from auditmean.errors import InputError, RecordError
 from auditmean.monetary_engagement import (
     BOUND_NAMES,
     DEFAULT_BOUND,
@@ -282,7 +282,6 @@ class PlanPanel(Panel):
                               self.check_understatement)
         self._model_touched = False
         self._requested: dict[int, int] = {}  # id of a check -> the samples asked for (to say when it stopped early)
-        self._no_bound: dict[int, str] = {}  # id of a check -> why the finite-sample bound was not simulated
         for w in self._model_inputs:
             w.observe(self._handler(self._on_model_input), names="value")
         self.check_reset_button.on_click(self._handler(lambda _b: self._reset_model()))
@@ -559,22 +558,14 @@ class PlanPanel(Panel):
         self.check_button.disabled = True
 
         def work(report: Any) -> Any:
-            args = dict(replications=replications, seed=seed, progress=report)
-            try:
-                return check_plan(strata, plan, given, **args), ""
-            except ParameterError as exc:
-                if exc.parameter != "bounds":
-                    raise
-                # the finite-sample bound cannot be simulated on this design (e.g. a sampled stratum of
-                # credits): check the normal limit alone, and say why the bound is left out
-                return check_plan(strata, plan, given, include_bound=False, **args), exc.reason
+            # where the finite-sample bound cannot be simulated on this design (e.g. a sampled stratum of
+            # credits) the check leaves it out and says why (PlanCheck.bound_note)
+            return check_plan(strata, plan, given, replications=replications, seed=seed, progress=report)
 
-        def done(outcome: Any) -> None:
-            result, why_no_bound = outcome
+        def done(result: Any) -> None:
             if state.plan is not plan:  # the plan changed while the check ran: its result is of no use
                 return
             self._requested[id(result)] = replications
-            self._no_bound[id(result)] = why_no_bound
             state.update(plan_check=result)
             self._keep_check(result)
 
@@ -712,7 +703,7 @@ class PlanPanel(Panel):
         if check is None:
             self.check_html.value = "" if not self.check_task.running else self.check_html.value
             return
-        self.check_html.value = plan_check_html(check, self._requested.get(id(check)), self._no_bound.get(id(check)))
+        self.check_html.value = plan_check_html(check, self._requested.get(id(check)), check.bound_note)
 
 
 def plan_check_html(check: Any, requested: int | None = None, no_bound: str | None = None) -> str:
@@ -727,7 +718,10 @@ def plan_check_html(check: Any, requested: int | None = None, no_bound: str | No
         parts.append(box(html.escape(f"Stopped early: {check.replications:,} of {int(requested):,} simulated "
                                      "samples are reported."), "warning"))
     if no_bound:
-        parts.append(box(html.escape(f"The finite-sample bound was not simulated: {no_bound}"), "note"))
+        from auditmean.coverage import BOUND_LEFT_OUT
+
+        why = no_bound.removeprefix(BOUND_LEFT_OUT + ": ")
+        parts.append(box(html.escape(f"The finite-sample bound was not simulated: {why}"), "note"))
     rows = [
         ["misstatement pattern simulated", check.model + (" (the default)" if check.model_is_default else "")],
         ["simulated samples", f"{check.replications:,} (seed {check.seed})"],
